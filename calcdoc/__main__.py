@@ -1,0 +1,5 @@
+"""``python -m calcdoc``."""
+
+from calcdoc.cli import entry
+
+entry()

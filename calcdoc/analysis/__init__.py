@@ -1,0 +1,1 @@
+"""Analysis stages on top of the case solutions: derating, tolerance, sensitivity, sweeps."""

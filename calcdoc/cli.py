@@ -1,0 +1,104 @@
+"""Command line: ``calcdoc build | solve | check | diff | verify``.
+
+Each command is a few lines in :mod:`calcdoc.commands`; this module only
+parses arguments and maps errors to exit status (0 done, 1 a check or
+verification failed, 2 bad input).  Heavy libraries are imported inside
+the commands, so ``calcdoc --help`` is quick.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from collections.abc import Sequence
+
+from calcdoc import __version__
+
+EXIT_OK, EXIT_FAIL, EXIT_INPUT = 0, 1, 2
+
+
+def parser() -> argparse.ArgumentParser:
+    ap = argparse.ArgumentParser(
+        prog="calcdoc",
+        description="Calculation records for linear DC circuits, from one TOML project file.",
+        epilog="Exit status: 0 done, 1 a check or verification failed, 2 bad input.",
+    )
+    ap.add_argument("--version", action="version", version=f"calcdoc {__version__}")
+    sub = ap.add_subparsers(dest="command", metavar="COMMAND", required=True)
+
+    b = sub.add_parser("build", help="write the PDF calculation package")
+    b.add_argument("file", help="project file (.toml)")
+    b.add_argument(
+        "-o", "--output", help="package path (default: NUMBER-revREV.pdf beside the project)"
+    )
+    b.add_argument(
+        "--previous", metavar="OLD", help="earlier package (.pdf) or project file to compare with"
+    )
+    b.add_argument(
+        "--sign",
+        metavar="KEY.p12",
+        help="sign with this PKCS#12 key (password from CALCDOC_KEY_PASSWORD)",
+    )
+    b.add_argument("-q", "--quiet", action="store_true", help="no progress display")
+
+    s = sub.add_parser("solve", help="print the results (tables, or JSON)")
+    s.add_argument("file", help="project file (.toml)")
+    s.add_argument("--json", action="store_true", help="print the results object as JSON")
+
+    c = sub.add_parser("check", help="run every design check; exit 1 if any fails")
+    c.add_argument("file", help="project file (.toml)")
+
+    d = sub.add_parser("diff", help="compare two revisions (project files or packages)")
+    d.add_argument("old")
+    d.add_argument("new")
+    d.add_argument("--json", action="store_true", help="print the comparison as JSON")
+    d.add_argument("--exit-code", action="store_true", help="exit 1 when anything changed")
+
+    v = sub.add_parser("verify", help="check a package's signature, embedded input and results")
+    v.add_argument("package", help="package (.pdf)")
+    v.add_argument("--trust", action="append", default=[], metavar="CERT.pem",
+                   help="trusted signer or CA certificate (repeatable)")  # fmt: skip
+    v.add_argument("--json", action="store_true", help="print the findings as JSON")
+    return ap
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; returns the exit status."""
+    args = parser().parse_args(argv)
+    from calcdoc.errors import CalcdocError, ProjectError, SingularCircuitError
+    from calcdoc.output import Terminal
+
+    term = Terminal()
+    module = importlib.import_module(f"calcdoc.commands.{args.command}")
+    try:
+        return int(module.run(args, term))
+    except ProjectError as exc:
+        term.error(exc.message)
+    except SingularCircuitError as exc:
+        term.error(singular_message(exc, getattr(args, "file", None) or ""))
+    except CalcdocError as exc:
+        term.error(str(exc))
+    except KeyboardInterrupt:
+        term.error("interrupted")
+    except BrokenPipeError:  # pragma: no cover - e.g. piped into head
+        return EXIT_OK
+    return EXIT_INPUT
+
+
+def singular_message(exc, file: str) -> str:
+    """``FILE: KEY: condition: detail`` for a circuit that cannot be solved."""
+    case = getattr(exc, "case", "nominal")
+    key = "circuit"
+    if exc.condition in ("zero-ohm resistor", "negative resistance"):
+        key = f"elements.{exc.culprits[0]}.value"
+    where = "" if case == "nominal" else f" (case {case!r})"
+    return f"{file}: {key}: {exc.condition}{where}: {exc.detail}"
+
+
+def entry() -> None:  # pragma: no cover
+    sys.exit(main())
+
+
+if __name__ == "__main__":  # pragma: no cover
+    entry()

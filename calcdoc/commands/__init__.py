@@ -1,0 +1,1 @@
+"""One module per command: load, solve, verify, render; a few lines each."""

@@ -1,0 +1,11 @@
+"""``calcdoc check FILE``: every design check; exit 1 if any fails."""
+
+from __future__ import annotations
+
+import calcdoc
+
+
+def run(args, term) -> int:
+    results = calcdoc.solve(calcdoc.load(args.file))
+    term.check_summary(results)
+    return 1 if results.failed else 0

@@ -1,0 +1,14 @@
+"""``calcdoc solve FILE [--json]``: print the results."""
+
+from __future__ import annotations
+
+import calcdoc
+
+
+def run(args, term) -> int:
+    results = calcdoc.solve(calcdoc.load(args.file))
+    if args.json:
+        term.json(calcdoc.to_json(results))
+    else:
+        term.case_results(results)
+    return 0

@@ -1,0 +1,1 @@
+"""calcdoc: mna stage."""

@@ -1,0 +1,1 @@
+"""calcdoc: model stage."""

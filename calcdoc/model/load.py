@@ -1,0 +1,989 @@
+"""Loading: project-file text to a validated, frozen :class:`Project`.
+
+:func:`parse_project` is pure (text in, model out); :func:`read_project`
+reads the file.  Every fault is collected with its key path and reported
+together in one :class:`~calcdoc.errors.ProjectError`.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import difflib
+import hashlib
+import re
+import sys
+from collections.abc import Callable, Mapping
+from fractions import Fraction
+from pathlib import Path
+from typing import Any
+
+from calcdoc.errors import Fault, ProjectError
+from calcdoc.model.elements import KINDS
+from calcdoc.model.expressions import ExpressionError, Node, evaluate, names_in, parse_expression
+from calcdoc.model.project import (
+    Analysis,
+    Case,
+    Derating,
+    Document,
+    Element,
+    HistoryEntry,
+    Limits,
+    NodeWindow,
+    Parameter,
+    Project,
+    Rating,
+    ReportSettings,
+    Setting,
+    Signature,
+    Signoff,
+    Sweep,
+    Tolerance,
+)
+from calcdoc.model.quantities import (
+    AMPERE,
+    KELVIN,
+    NONE,
+    VOLT,
+    WATT,
+    Dimension,
+    Quantity,
+    QuantityError,
+    dim_div,
+    dimension_name,
+    parse_temperature,
+)
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover
+    import tomli as tomllib
+
+NAME_RE = re.compile(r"[A-Za-z0-9_.\-]+")
+OUTPUT_QUANTITIES = ("voltage", "current", "power")
+TOLERANCE_METHODS = ("none", "extreme", "montecarlo", "rss")
+SERIES = ("E3", "E6", "E12", "E24", "E48", "E96", "E192")
+PAPERS = ("A4", "Letter")
+
+TOP_KEYS = (
+    "schema", "document", "signoff", "circuit", "parameters", "elements",
+    "limits", "cases", "analysis", "sweeps", "report",
+)  # fmt: skip
+DOCUMENT_KEYS = (
+    "title", "number", "revision", "date", "project", "organisation", "purpose",
+    "scope", "assumptions", "references", "history", "conclusion",
+)  # fmt: skip
+ELEMENT_KEYS = (
+    "type", "nodes", "value", "gain", "control", "tolerance", "rating",
+    "description", "series", "tcr", "derating",
+)  # fmt: skip
+RATING_KEYS = {"power": WATT, "voltage": VOLT, "current": AMPERE}
+
+
+class _Faults:
+    def __init__(self) -> None:
+        self.items: list[Fault] = []
+
+    def add(
+        self, path: str, message: str, line: int | None = None, column: int | None = None
+    ) -> None:
+        self.items.append(Fault(path, message, line, column))
+
+
+def _hint(word: str, choices: Any) -> str:
+    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.6)
+    return f" (did you mean {close[0]!r}?)" if close else ""
+
+
+def _keys(table: Mapping[str, Any], allowed: Any, path: str, faults: _Faults) -> None:
+    for key in table:
+        if key not in allowed:
+            faults.add(f"{path}.{key}" if path else key, f"unknown key{_hint(key, allowed)}")
+
+
+def _join(path: str, key: str) -> str:
+    return f"{path}.{key}" if path else key
+
+
+def _table(value: Any, path: str, faults: _Faults) -> dict[str, Any]:
+    if value is None:
+        return {}
+    if not isinstance(value, dict):
+        faults.add(path, f"expected a table, found {_kind(value)}")
+        return {}
+    return value
+
+
+def _kind(value: Any) -> str:
+    return {
+        str: "a string", bool: "true/false", int: "an integer", float: "a number",
+        list: "an array", dict: "a table", dt.date: "a date", dt.datetime: "a date-time",
+    }.get(type(value), type(value).__name__)  # fmt: skip
+
+
+def _text(table: Mapping[str, Any], key: str, path: str, faults: _Faults, default: str = "") -> str:
+    value = table.get(key, default)
+    if not isinstance(value, str):
+        faults.add(_join(path, key), f"expected a string, found {_kind(value)}")
+        return default
+    return value
+
+
+def _texts(table: Mapping[str, Any], key: str, path: str, faults: _Faults) -> tuple[str, ...]:
+    value = table.get(key, [])
+    if isinstance(value, str):
+        return (value,)
+    if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+        faults.add(_join(path, key), "expected an array of strings")
+        return ()
+    return tuple(value)
+
+
+def _date(table: Mapping[str, Any], key: str, path: str, faults: _Faults) -> dt.date | None:
+    value = table.get(key)
+    if value is None:
+        return None
+    if isinstance(value, dt.datetime):
+        return value.date()
+    if isinstance(value, dt.date):
+        return value
+    if isinstance(value, str):
+        try:
+            return dt.date.fromisoformat(value)
+        except ValueError:
+            pass
+    faults.add(_join(path, key), "expected a date such as 2026-11-20")
+    return None
+
+
+def _number(value: Any) -> Fraction | None:
+    if isinstance(value, bool):
+        return None
+    if isinstance(value, int):
+        return Fraction(value)
+    if isinstance(value, float):
+        if value != value or value in (float("inf"), float("-inf")):
+            return None
+        return Fraction(repr(value))
+    return None
+
+
+def _quantity(value: Any, dim: Dimension, path: str, faults: _Faults) -> Quantity | None:
+    """A constant quantity (no parameters) of the given dimension."""
+    if dim == NONE:
+        num = _number(value)
+        if num is not None:
+            return Quantity(num, NONE)
+    if not isinstance(value, str):
+        faults.add(
+            path, f"expected a string with units, such as {_example(dim)}, found {_kind(value)}"
+        )
+        return None
+    try:
+        q = evaluate(parse_expression(value), {})
+    except (ExpressionError, QuantityError) as exc:
+        faults.add(path, str(exc))
+        return None
+    if q.dimension != dim:
+        faults.add(
+            path,
+            f"expected {dimension_name(dim)}, found {dimension_name(q.dimension)} in {value!r}",
+        )
+        return None
+    return q
+
+
+def _example(dim: Dimension) -> str:
+    return {VOLT: '"24 V"', AMPERE: '"10 mA"', WATT: '"0.25 W"', NONE: '"1 %"'}.get(
+        dim, '"4.7 kohm"'
+    )
+
+
+def _fraction_value(
+    value: Any, path: str, faults: _Faults, lo: Fraction, hi: Fraction
+) -> Fraction | None:
+    q = _quantity(value, NONE, path, faults)
+    if q is None:
+        return None
+    f = Fraction(q.magnitude)
+    if not lo < f <= hi:
+        faults.add(
+            path,
+            f"must be greater than {float(lo):g} and at most {float(hi):g}, found {float(f):g}",
+        )
+        return None
+    return f
+
+
+def _temperature(value: Any, path: str, faults: _Faults) -> Fraction | None:
+    if value is None:
+        return None
+    try:
+        t = parse_temperature(value)
+    except QuantityError as exc:
+        faults.add(path, str(exc))
+        return None
+    if t < Fraction("-273.15"):
+        faults.add(path, "below absolute zero")
+        return None
+    return t
+
+
+def _tolerance(value: Any, path: str, faults: _Faults) -> Tolerance | None:
+    if value is None:
+        return None
+    if isinstance(value, dict):
+        _keys(value, ("minus", "plus"), path, faults)
+        if "minus" not in value or "plus" not in value:
+            faults.add(path, "an asymmetric tolerance needs both 'minus' and 'plus'")
+            return None
+        minus = _quantity(value["minus"], NONE, _join(path, "minus"), faults)
+        plus = _quantity(value["plus"], NONE, _join(path, "plus"), faults)
+        text = f"−{value['minus']} / +{value['plus']}"
+    else:
+        minus = plus = _quantity(value, NONE, path, faults)
+        text = f"±{value}" if isinstance(value, str) else f"±{value}"
+    if minus is None or plus is None:
+        return None
+    m, p = Fraction(minus.magnitude), Fraction(plus.magnitude)
+    if m < 0 or p < 0:
+        faults.add(path, 'a tolerance is given as a positive share, e.g. "1 %"')
+        return None
+    if m >= 1:
+        faults.add(path, "a minus tolerance of 100 % or more would make the value zero or negative")
+        return None
+    return Tolerance(m, p, text)
+
+
+def _derating(value: Any, path: str, faults: _Faults) -> Derating | None:
+    if value is None:
+        return None
+    table = _table(value, path, faults)
+    _keys(table, ("knee", "zero"), path, faults)
+    knee = _temperature(table.get("knee"), _join(path, "knee"), faults)
+    zero = _temperature(table.get("zero"), _join(path, "zero"), faults)
+    if knee is None or zero is None:
+        if "knee" not in table or "zero" not in table:
+            faults.add(
+                path, "a derating curve needs 'knee' (full rating up to) and 'zero' (no rating at)"
+            )
+        return None
+    if zero <= knee:
+        faults.add(_join(path, "zero"), "the zero-rating temperature must be above the knee")
+        return None
+    return Derating(knee, zero)
+
+
+def _name_ok(name: str, path: str, faults: _Faults, what: str) -> bool:
+    if not isinstance(name, str) or not NAME_RE.fullmatch(name):
+        faults.add(path, f"{what} name {name!r} may hold only letters, digits, '_', '-' and '.'")
+        return False
+    return True
+
+
+# ---------------------------------------------------------------- sections
+
+
+def _document(raw: Any, faults: _Faults) -> Document:
+    t = _table(raw, "document", faults)
+    _keys(t, DOCUMENT_KEYS, "document", faults)
+    history = []
+    hist = t.get("history", [])
+    if not isinstance(hist, list):
+        faults.add("document.history", "expected an array of tables ([[document.history]])")
+        hist = []
+    for i, h in enumerate(hist):
+        path = f"document.history[{i}]"
+        h = _table(h, path, faults)
+        _keys(h, ("revision", "date", "description"), path, faults)
+        if "revision" not in h:
+            faults.add(path, "missing key 'revision'")
+        history.append(
+            HistoryEntry(
+                _text(h, "revision", path, faults) if "revision" in h else "",
+                _date(h, "date", path, faults),
+                _text(h, "description", path, faults),
+            )
+        )
+    return Document(
+        title=_text(t, "title", "document", faults, "Untitled calculation"),
+        number=_text(t, "number", "document", faults),
+        revision=_text(t, "revision", "document", faults),
+        date=_date(t, "date", "document", faults),
+        project=_text(t, "project", "document", faults),
+        organisation=_text(t, "organisation", "document", faults),
+        purpose=_text(t, "purpose", "document", faults),
+        scope=_text(t, "scope", "document", faults),
+        assumptions=_texts(t, "assumptions", "document", faults),
+        references=_texts(t, "references", "document", faults),
+        history=tuple(history),
+        conclusion=_text(t, "conclusion", "document", faults),
+    )
+
+
+def _signoff(raw: Any, faults: _Faults) -> Signoff:
+    t = _table(raw, "signoff", faults)
+    _keys(t, ("prepared", "checked", "approved", "seal"), "signoff", faults)
+    roles: dict[str, Signature | None] = {}
+    for role in ("prepared", "checked", "approved"):
+        if role not in t:
+            roles[role] = None
+            continue
+        path = f"signoff.{role}"
+        r = _table(t[role], path, faults)
+        _keys(r, ("name", "date"), path, faults)
+        name = _text(r, "name", path, faults)
+        if not name.strip():
+            faults.add(path, "a sign-off needs a 'name' (leave the role out while it is open)")
+        roles[role] = Signature(name, _date(r, "date", path, faults))
+    seal = _text(t, "seal", "signoff", faults) if "seal" in t else None
+    return Signoff(seal=seal, **roles)
+
+
+def _parameters(raw: Any, faults: _Faults) -> tuple[dict[str, Quantity], list[Parameter]]:
+    t = _table(raw, "parameters", faults)
+    entries: dict[str, tuple[str, Node, Any, str]] = {}
+    for name, spec in t.items():
+        path = f"parameters.{name}"
+        if not _name_ok(name, path, faults, "parameter"):
+            continue
+        tol_raw, desc = None, ""
+        if isinstance(spec, dict):
+            _keys(spec, ("value", "tolerance", "description"), path, faults)
+            desc = _text(spec, "description", path, faults)
+            tol_raw = spec.get("tolerance")
+            if "value" not in spec:
+                faults.add(path, "missing key 'value'")
+                continue
+            spec, path = spec["value"], f"{path}.value"
+        if isinstance(spec, (int, float)) and not isinstance(spec, bool):
+            spec = repr(spec)
+        if not isinstance(spec, str):
+            faults.add(path, f'expected a value string such as "85 m", found {_kind(spec)}')
+            continue
+        try:
+            expr = parse_expression(spec)
+        except (ExpressionError, QuantityError) as exc:
+            faults.add(path, str(exc))
+            continue
+        entries[name] = (spec, expr, tol_raw, desc)
+
+    values: dict[str, Quantity] = {}
+    state: dict[str, int] = {}  # 1 visiting, 2 done
+    failed: set[str] = set()
+
+    def visit(name: str, chain: list[str]) -> None:
+        if state.get(name) == 2:
+            return
+        if state.get(name) == 1:
+            cycle = chain[chain.index(name) :] + [name]
+            faults.add(
+                f"parameters.{name}",
+                "parameters refer to each other in a cycle: " + " → ".join(cycle),
+            )
+            failed.update(cycle)
+            return
+        state[name] = 1
+        text, expr, _, _ = entries[name]
+        for dep in sorted(names_in(expr)):
+            if dep not in entries:
+                faults.add(f"parameters.{name}", f"unknown parameter {dep!r}{_hint(dep, entries)}")
+                failed.add(name)
+            else:
+                visit(dep, [*chain, name])
+                if dep in failed:
+                    failed.add(name)
+        state[name] = 2
+        if name not in failed:
+            try:
+                values[name] = evaluate(expr, values)
+            except ExpressionError as exc:
+                faults.add(f"parameters.{name}", str(exc))
+                failed.add(name)
+
+    for name in entries:
+        visit(name, [])
+    params = []
+    for name, (text, expr, tol_raw, desc) in entries.items():
+        if name in values:
+            tol = _tolerance(tol_raw, f"parameters.{name}.tolerance", faults)
+            params.append(Parameter(name, text, expr, values[name], tol, desc))
+    return values, params
+
+
+def _value_expr(value: Any, path: str, faults: _Faults, dim: Dimension) -> tuple[str, Node] | None:
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        if dim != NONE:
+            faults.add(path, f"write the value with its unit, such as {_example(dim)}")
+            return None
+        value = repr(value)
+    if not isinstance(value, str):
+        faults.add(path, f"expected a value string such as {_example(dim)}, found {_kind(value)}")
+        return None
+    try:
+        return value, parse_expression(value)
+    except (ExpressionError, QuantityError) as exc:
+        faults.add(path, str(exc))
+        return None
+
+
+def _resolved(
+    text_expr: tuple[str, Node],
+    path: str,
+    faults: _Faults,
+    dim: Dimension,
+    params: Mapping[str, Quantity],
+    known_params: Any,
+) -> Quantity | None:
+    text, expr = text_expr
+    for dep in names_in(expr):
+        if dep not in params:
+            if dep in known_params:
+                return None  # the parameter's own fault is already reported
+            faults.add(path, f"unknown parameter {dep!r}{_hint(dep, known_params)}")
+            return None
+    try:
+        q = evaluate(expr, params)
+    except ExpressionError as exc:
+        faults.add(path, str(exc))
+        return None
+    if q.dimension != dim:
+        faults.add(
+            path, f"expected {dimension_name(dim)}, found {dimension_name(q.dimension)} in {text!r}"
+        )
+        return None
+    return q
+
+
+def _elements(
+    raw: Any, faults: _Faults, params: Mapping[str, Quantity], param_names: Any
+) -> list[Element]:
+    t = _table(raw, "elements", faults)
+    if not t and "elements" not in faults.items:
+        faults.add("elements", "the circuit has no elements")
+    out: list[Element] = []
+    allowed = frozenset(ELEMENT_KEYS)
+    kinds_list = list(KINDS)
+    for name, spec in t.items():
+        path = f"elements.{name}"
+        if not _name_ok(name, path, faults, "element"):
+            continue
+        if not isinstance(spec, dict):
+            faults.add(path, f"expected a table, found {_kind(spec)}")
+            continue
+        if not allowed.issuperset(spec):
+            _keys(spec, ELEMENT_KEYS, path, faults)
+        etype = spec.get("type")
+        if etype is None:
+            faults.add(path, "missing key 'type' (one of: " + ", ".join(KINDS) + ")")
+            continue
+        kind = KINDS.get(etype) if isinstance(etype, str) else None
+        if kind is None:
+            faults.add(
+                f"{path}.type", f"unknown element type {etype!r}{_hint(str(etype), kinds_list)}"
+            )
+            continue
+        nodes = spec.get("nodes")
+        ok = True
+        if (
+            not isinstance(nodes, list)
+            or len(nodes) != 2
+            or not all(isinstance(n, str) and NAME_RE.fullmatch(n) for n in nodes)
+        ):
+            faults.add(f"{path}.nodes", 'expected two node names, such as ["bus", "gnd"]')
+            ok = False
+        elif nodes[0] == nodes[1]:
+            faults.add(f"{path}.nodes", f"both terminals are on node {nodes[0]!r}")
+            ok = False
+        vkey = kind.value_key
+        other = "gain" if vkey == "value" else "value"
+        if other in spec:
+            faults.add(f"{path}.{other}", f"a {etype} takes '{vkey}', not '{other}'")
+        if vkey not in spec:
+            faults.add(path, f"missing key '{vkey}'")
+            continue
+        vexpr = _value_expr(spec[vkey], f"{path}.{vkey}", faults, kind.dimension)
+        value = (
+            _resolved(vexpr, f"{path}.{vkey}", faults, kind.dimension, params, param_names)
+            if vexpr
+            else None
+        )
+        control_nodes = control_element = None
+        if kind.control is None:
+            if "control" in spec:
+                faults.add(f"{path}.control", f"a {etype} has no control")
+        elif "control" not in spec:
+            faults.add(path, "missing key 'control'")
+            ok = False
+        elif kind.control == "nodes":
+            c = spec["control"]
+            if not isinstance(c, list) or len(c) != 2 or not all(isinstance(n, str) for n in c):
+                faults.add(
+                    f"{path}.control", 'expected the controlling node pair, such as ["in", "gnd"]'
+                )
+                ok = False
+            else:
+                control_nodes = (c[0], c[1])
+        else:
+            c = spec["control"]
+            if not isinstance(c, str):
+                faults.add(
+                    f"{path}.control",
+                    "expected the name of the element whose current controls this one",
+                )
+                ok = False
+            elif c == name:
+                faults.add(f"{path}.control", "an element cannot be controlled by its own current")
+                ok = False
+            else:
+                control_element = c
+        rating = Rating()
+        if "rating" in spec:
+            r = _table(spec["rating"], f"{path}.rating", faults)
+            _keys(r, RATING_KEYS, f"{path}.rating", faults)
+            got = {}
+            for q, dim in RATING_KEYS.items():
+                if q in r:
+                    v = _quantity(r[q], dim, f"{path}.rating.{q}", faults)
+                    if v is not None and v.magnitude <= 0:
+                        faults.add(f"{path}.rating.{q}", "a rating must be positive")
+                    elif v is not None:
+                        got[q] = v.magnitude
+            rating = Rating(**got)
+        tol = _tolerance(spec.get("tolerance"), f"{path}.tolerance", faults)
+        series = None
+        if "series" in spec:
+            s = spec["series"]
+            if s not in SERIES:
+                faults.add(
+                    f"{path}.series", f"expected one of {', '.join(SERIES)}{_hint(str(s), SERIES)}"
+                )
+            elif etype != "resistor":
+                faults.add(f"{path}.series", "a preferred-value series applies to resistors only")
+            else:
+                series = s
+        tcr = None
+        if "tcr" in spec:
+            q = _quantity(spec["tcr"], dim_div(NONE, KELVIN), f"{path}.tcr", faults)
+            tcr = q.magnitude if q else None
+        derating = _derating(spec.get("derating"), f"{path}.derating", faults)
+        desc = _text(spec, "description", path, faults)
+        if ok and value is not None and vexpr is not None:
+            out.append(
+                Element(
+                    name=name,
+                    type=etype,
+                    nodes=(nodes[0], nodes[1]),
+                    value=value.magnitude,
+                    value_text=vexpr[0],
+                    value_expr=vexpr[1],
+                    control_nodes=control_nodes,
+                    control_element=control_element,
+                    tolerance=tol,
+                    rating=rating,
+                    description=desc,
+                    series=series,
+                    tcr=tcr,
+                    derating=derating,
+                )  # fmt: skip
+            )
+    return out
+
+
+def _limits(raw: Any, faults: _Faults, nodes: set[str]) -> Limits:
+    t = _table(raw, "limits", faults)
+    _keys(
+        t,
+        ("power_fraction", "voltage_fraction", "current_fraction", "ambient", "derating", "nodes"),
+        "limits",
+        faults,
+    )
+    fr = {}
+    for key in ("power_fraction", "voltage_fraction", "current_fraction"):
+        if key in t:
+            v = _fraction_value(t[key], f"limits.{key}", faults, Fraction(0), Fraction(1))
+            if v is not None:
+                fr[key] = v
+    windows = []
+    for node, spec in _table(t.get("nodes"), "limits.nodes", faults).items():
+        path = f"limits.nodes.{node}"
+        if node not in nodes:
+            faults.add(path, f"no such node{_hint(node, nodes)}")
+            continue
+        spec = _table(spec, path, faults)
+        _keys(spec, ("min", "max"), path, faults)
+        lo = _quantity(spec["min"], VOLT, f"{path}.min", faults) if "min" in spec else None
+        hi = _quantity(spec["max"], VOLT, f"{path}.max", faults) if "max" in spec else None
+        if "min" not in spec and "max" not in spec:
+            faults.add(path, "give 'min', 'max' or both")
+        if lo is not None and hi is not None and lo.magnitude > hi.magnitude:
+            faults.add(path, "'min' is above 'max'")
+        windows.append(NodeWindow(node, lo.magnitude if lo else None, hi.magnitude if hi else None))
+    return Limits(
+        ambient=_temperature(t.get("ambient"), "limits.ambient", faults),
+        derating=_derating(t.get("derating"), "limits.derating", faults),
+        nodes=tuple(windows),
+        **fr,
+    )
+
+
+def _cases(
+    raw: Any, faults: _Faults, elements: Mapping[str, Element], params: Mapping[str, Parameter]
+) -> list[Case]:
+    if raw is None:
+        return []
+    if not isinstance(raw, list):
+        faults.add("cases", "expected an array of tables ([[cases]])")
+        return []
+    out, seen = [], {"nominal"}
+    targets = [*elements, *params]
+    for i, spec in enumerate(raw):
+        path = f"cases[{i}]"
+        spec = _table(spec, path, faults)
+        _keys(spec, ("name", "set", "description"), path, faults)
+        name = _text(spec, "name", path, faults)
+        if not name.strip():
+            faults.add(f"{path}.name", "every case needs a name")
+        elif name in seen:
+            faults.add(
+                f"{path}.name", f"case name {name!r} is used twice (or is the reserved 'nominal')"
+            )
+        seen.add(name)
+        settings = []
+        for target, value in _table(spec.get("set"), f"{path}.set", faults).items():
+            spath = f"{path}.set.{target}"
+            if target in elements:
+                dim = elements[target].kind.dimension
+            elif target in params:
+                dim = params[target].value.dimension
+            else:
+                faults.add(spath, f"no element or parameter of that name{_hint(target, targets)}")
+                continue
+            ve = _value_expr(value, spath, faults, dim)
+            if ve is None:
+                continue
+            if target in params and target in names_in(ve[1]):
+                faults.add(spath, "a case cannot define a parameter in terms of itself")
+                continue
+            q = _resolved(ve, spath, faults, dim, {k: p.value for k, p in params.items()}, params)
+            if q is not None:
+                settings.append(Setting(target, ve[0], ve[1], dim))
+        out.append(Case(name, tuple(settings), _text(spec, "description", path, faults)))
+    return out
+
+
+def parse_output(spec: str) -> tuple[str, str]:
+    """Split an output name: ``"field"`` → (node, "voltage"); ``"Rs.power"`` → (element, "power")."""
+    if "." in spec:
+        head, _, q = spec.rpartition(".")
+        if q in OUTPUT_QUANTITIES:
+            return head, q
+    return spec, "node"
+
+
+def _outputs(
+    value: Any, path: str, faults: _Faults, nodes: set[str], elements: Mapping[str, Element]
+) -> tuple[str, ...]:
+    if value is None:
+        return ()
+    if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+        faults.add(path, 'expected an array of output names, such as ["field", "Rs.power"]')
+        return ()
+    good = []
+    for i, v in enumerate(value):
+        subject, q = parse_output(v)
+        if (q == "node" and subject in nodes) or (q != "node" and subject in elements):
+            good.append(v)
+        else:
+            choices = [*nodes, *(f"{e}.power" for e in elements)]
+            faults.add(
+                f"{path}[{i}]",
+                f"{v!r} is neither a node nor ELEMENT.voltage/current/power{_hint(v, choices)}",
+            )
+    return tuple(good)
+
+
+def _analysis(
+    raw: Any, faults: _Faults, nodes: set[str], elements: Mapping[str, Element]
+) -> Analysis:
+    t = _table(raw, "analysis", faults)
+    keys = (
+        "tolerance",
+        "samples",
+        "seed",
+        "distribution",
+        "sensitivity",
+        "temperature",
+        "reference_temperature",
+    )
+    _keys(t, keys, "analysis", faults)
+    kw: dict[str, Any] = {}
+    method = t.get("tolerance", "none")
+    if method not in TOLERANCE_METHODS:
+        faults.add(
+            "analysis.tolerance",
+            f"expected one of {', '.join(TOLERANCE_METHODS)}{_hint(str(method), TOLERANCE_METHODS)}",
+        )
+    else:
+        kw["tolerance"] = method
+    for key, lo, hi in (("samples", 10, 1_000_000), ("seed", 0, 2**32 - 1)):
+        if key in t:
+            v = t[key]
+            if not isinstance(v, int) or isinstance(v, bool) or not lo <= v <= hi:
+                faults.add(f"analysis.{key}", f"expected a whole number from {lo} to {hi}")
+            else:
+                kw[key] = v
+    if "distribution" in t:
+        if t["distribution"] not in ("uniform", "normal"):
+            faults.add("analysis.distribution", 'expected "uniform" or "normal"')
+        else:
+            kw["distribution"] = t["distribution"]
+    kw["sensitivity"] = _outputs(
+        t.get("sensitivity"), "analysis.sensitivity", faults, nodes, elements
+    )
+    if "temperature" in t:
+        kw["temperature"] = _temperature(t["temperature"], "analysis.temperature", faults)
+    if "reference_temperature" in t:
+        rt = _temperature(t["reference_temperature"], "analysis.reference_temperature", faults)
+        if rt is not None:
+            kw["reference_temperature"] = rt
+    return Analysis(**kw)
+
+
+def _sweeps(
+    raw: Any,
+    faults: _Faults,
+    nodes: set[str],
+    elements: Mapping[str, Element],
+    params: Mapping[str, Parameter],
+) -> list[Sweep]:
+    if raw is None:
+        return []
+    if not isinstance(raw, list):
+        faults.add("sweeps", "expected an array of tables ([[sweeps]])")
+        return []
+    out = []
+    for i, spec in enumerate(raw):
+        path = f"sweeps[{i}]"
+        spec = _table(spec, path, faults)
+        _keys(spec, ("name", "target", "from", "to", "points", "scale", "outputs"), path, faults)
+        target = spec.get("target")
+        if target in elements:
+            dim = elements[target].kind.dimension
+        elif target in params:
+            dim = params[target].value.dimension
+        else:
+            faults.add(
+                f"{path}.target",
+                f"no element or parameter of that name{_hint(str(target), [*elements, *params])}",
+            )
+            continue
+        missing = [k for k in ("from", "to", "outputs") if k not in spec]
+        if missing:
+            faults.add(path, "missing key " + ", ".join(repr(m) for m in missing))
+            continue
+        start = _quantity(spec["from"], dim, f"{path}.from", faults)
+        stop = _quantity(spec["to"], dim, f"{path}.to", faults)
+        points = spec.get("points", 41)
+        if not isinstance(points, int) or isinstance(points, bool) or not 2 <= points <= 2000:
+            faults.add(f"{path}.points", "expected a whole number from 2 to 2000")
+            continue
+        scale = spec.get("scale", "linear")
+        if scale not in ("linear", "log"):
+            faults.add(f"{path}.scale", 'expected "linear" or "log"')
+            continue
+        outputs = _outputs(spec.get("outputs"), f"{path}.outputs", faults, nodes, elements)
+        if not outputs:
+            continue
+        if start is None or stop is None:
+            continue
+        if start.magnitude == stop.magnitude:
+            faults.add(f"{path}.to", "the range is empty")
+            continue
+        if scale == "log" and (start.magnitude <= 0 or stop.magnitude <= 0):
+            faults.add(f"{path}.scale", "a log sweep needs positive end points")
+            continue
+        out.append(
+            Sweep(target, start, stop, points, scale, outputs, _text(spec, "name", path, faults))
+        )
+    return out
+
+
+def _report(raw: Any, faults: _Faults) -> ReportSettings:
+    t = _table(raw, "report", faults)
+    _keys(t, ("template", "paper", "significant_figures", "conclusion"), "report", faults)
+    kw: dict[str, Any] = {}
+    if "template" in t:
+        kw["template"] = _text(t, "template", "report", faults, "standard")
+    if "paper" in t:
+        if t["paper"] not in PAPERS:
+            faults.add("report.paper", f'expected "A4" or "Letter"{_hint(str(t["paper"]), PAPERS)}')
+        else:
+            kw["paper"] = t["paper"]
+    if "significant_figures" in t:
+        v = t["significant_figures"]
+        if not isinstance(v, int) or isinstance(v, bool) or not 2 <= v <= 10:
+            faults.add("report.significant_figures", "expected a whole number from 2 to 10")
+        else:
+            kw["significant_figures"] = v
+    kw["conclusion"] = _text(t, "conclusion", "report", faults)
+    return ReportSettings(**kw)
+
+
+def _check_references(elements: list[Element], reference: str, faults: _Faults) -> None:
+    nodes = {n for e in elements for n in e.nodes}
+    names = {e.name for e in elements}
+    if elements and reference not in nodes:
+        faults.add(
+            "circuit.reference",
+            f"reference node {reference!r} is not a terminal of any element{_hint(reference, nodes)}",
+        )
+    for e in elements:
+        if e.control_nodes:
+            for n in e.control_nodes:
+                if n not in nodes:
+                    faults.add(f"elements.{e.name}.control", f"no such node {n!r}{_hint(n, nodes)}")
+        if e.control_element and e.control_element not in names:
+            faults.add(
+                f"elements.{e.name}.control",
+                f"no such element {e.control_element!r}{_hint(e.control_element, names)}",
+            )
+
+
+def _toml(text: str, faults: _Faults) -> dict[str, Any] | None:
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        msg = str(exc)
+        m = re.search(r"\(at line (\d+), column (\d+)\)", msg)
+        line = col = None
+        if m:
+            line, col = int(m.group(1)), int(m.group(2))
+            msg = msg[: m.start()].strip()
+        elif getattr(exc, "lineno", None):
+            line, col = exc.lineno, exc.colno  # type: ignore[attr-defined]
+        faults.add("", f"TOML syntax error: {msg}", line, col)
+        return None
+    except RecursionError:
+        faults.add("", "TOML syntax error: nested too deeply")
+        return None
+
+
+def parse_project(source: bytes | str, path: str = "<input>") -> Project:
+    """Validate project-file text into a :class:`Project`.
+
+    Parameters
+    ----------
+    source : bytes or str
+        The TOML text.
+    path : str
+        Shown in error messages and recorded in the model.
+
+    Returns
+    -------
+    Project
+
+    Raises
+    ------
+    ProjectError
+        With every fault found.
+
+    >>> p = parse_project('''
+    ... [elements.V1]
+    ... type = "voltage_source"
+    ... nodes = ["in", "gnd"]
+    ... value = "10 V"
+    ... [elements.R1]
+    ... type = "resistor"
+    ... nodes = ["in", "out"]
+    ... value = "1 kohm"
+    ... [elements.R2]
+    ... type = "resistor"
+    ... nodes = ["out", "gnd"]
+    ... value = "1k"
+    ... ''')
+    >>> [e.name for e in p.elements], p.nodes
+    (['V1', 'R1', 'R2'], ('gnd', 'in', 'out'))
+    """
+    raw_bytes = source.encode("utf-8") if isinstance(source, str) else bytes(source)
+    faults = _Faults()
+    try:
+        text = raw_bytes.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise ProjectError(
+            [Fault("", f"the file is not UTF-8 text (byte {exc.start + 1})")], path
+        ) from None
+    data = _toml(text, faults)
+    if data is None:
+        raise ProjectError(faults.items, path)
+    _keys(data, TOP_KEYS, "", faults)
+    schema = data.get("schema", 1)
+    if schema != 1 or isinstance(schema, bool):
+        faults.add("schema", f"this calcdoc reads schema 1, found {schema!r}")
+    circuit = _table(data.get("circuit"), "circuit", faults)
+    _keys(circuit, ("reference",), "circuit", faults)
+    reference = _text(circuit, "reference", "circuit", faults, "gnd")
+    if not NAME_RE.fullmatch(reference):
+        faults.add(
+            "circuit.reference", "a node name may hold only letters, digits, '_', '-' and '.'"
+        )
+    document = _document(data.get("document"), faults)
+    signoff = _signoff(data.get("signoff"), faults)
+    param_values, params = _parameters(data.get("parameters"), faults)
+    param_names = set(_table(data.get("parameters"), "parameters", _Faults()))
+    if "elements" not in data:
+        faults.add("elements", "the circuit has no elements ([elements.NAME] tables)")
+    elements = (
+        _elements(data.get("elements", {}), faults, param_values, param_names)
+        if "elements" in data
+        else []
+    )
+    _check_references(elements, reference, faults)
+    nodes = {n for e in elements for n in e.nodes}
+    by_name = {e.name: e for e in elements}
+    clash = sorted(set(by_name) & {p.name for p in params})
+    for name in clash:
+        faults.add(
+            f"parameters.{name}",
+            f"{name!r} is also an element name; case settings would be ambiguous",
+        )
+    limits = _limits(data.get("limits"), faults, nodes)
+    pmap = {p.name: p for p in params}
+    cases = _cases(data.get("cases"), faults, by_name, pmap)
+    analysis = _analysis(data.get("analysis"), faults, nodes, by_name)
+    sweeps = _sweeps(data.get("sweeps"), faults, nodes, by_name, pmap)
+    report = _report(data.get("report"), faults)
+    if faults.items:
+        raise ProjectError(faults.items, path)
+    return Project(
+        path=path,
+        source=raw_bytes,
+        sha256=hashlib.sha256(raw_bytes).hexdigest(),
+        document=document,
+        signoff=signoff,
+        reference=reference,
+        parameters=tuple(params),
+        elements=tuple(elements),
+        limits=limits,
+        cases=tuple(cases),
+        analysis=analysis,
+        sweeps=tuple(sweeps),
+        report=report,
+    )
+
+
+def read_project(path: str | Path, *, reader: Callable[[Path], bytes] | None = None) -> Project:
+    """Read and validate a project file.
+
+    Raises
+    ------
+    ProjectError
+        The file is missing, unreadable or invalid.
+    """
+    p = Path(path)
+    try:
+        data = reader(p) if reader else p.read_bytes()
+    except OSError as exc:
+        raise ProjectError(
+            [Fault("", f"cannot read the file: {exc.strerror or exc}")], str(path)
+        ) from None
+    return parse_project(data, str(path))

@@ -1,0 +1,229 @@
+"""The frozen project model: what a project file says, validated.
+
+All quantities are in SI units (V, A, W, Ω, S); temperatures in °C;
+fractions (tolerances, limit shares) as plain numbers (0.01 = 1 %).
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+from dataclasses import dataclass, field
+from fractions import Fraction
+
+from calcdoc.model.elements import KINDS, ElementKind
+from calcdoc.model.expressions import Node
+from calcdoc.model.quantities import Dimension, Number, Quantity
+
+
+@dataclass(frozen=True)
+class Tolerance:
+    """Relative tolerance band: value may lie in [v·(1−minus), v·(1+plus)]."""
+
+    minus: Fraction
+    plus: Fraction
+    text: str = ""
+
+
+@dataclass(frozen=True)
+class Rating:
+    """Component ratings in SI units; ``None`` where not given."""
+
+    power: Number | None = None
+    voltage: Number | None = None
+    current: Number | None = None
+
+    def given(self) -> tuple[tuple[str, Number], ...]:
+        return tuple(
+            (q, v)
+            for q, v in (
+                ("power", self.power),
+                ("voltage", self.voltage),
+                ("current", self.current),
+            )
+            if v is not None
+        )
+
+
+@dataclass(frozen=True)
+class Derating:
+    """Linear power derating: full rating up to ``knee`` °C, zero at ``zero`` °C."""
+
+    knee: Fraction
+    zero: Fraction
+
+
+@dataclass(frozen=True)
+class Element:
+    """One circuit element.
+
+    ``value`` is the nominal value in SI units (resistance Ω, source V or A,
+    or the dependent-source gain), as evaluated from ``value_text``.
+    """
+
+    name: str
+    type: str
+    nodes: tuple[str, str]
+    value: Number
+    value_text: str
+    value_expr: Node
+    control_nodes: tuple[str, str] | None = None
+    control_element: str | None = None
+    tolerance: Tolerance | None = None
+    rating: Rating = field(default_factory=Rating)
+    description: str = ""
+    series: str | None = None
+    tcr: Number | None = None  # 1/K
+    derating: Derating | None = None
+
+    @property
+    def kind(self) -> ElementKind:
+        return KINDS[self.type]
+
+
+@dataclass(frozen=True)
+class Parameter:
+    name: str
+    text: str
+    expr: Node
+    value: Quantity
+    tolerance: Tolerance | None = None
+    description: str = ""
+
+
+@dataclass(frozen=True)
+class HistoryEntry:
+    revision: str
+    date: _dt.date | None
+    description: str
+
+
+@dataclass(frozen=True)
+class Document:
+    title: str = "Untitled calculation"
+    number: str = ""
+    revision: str = ""
+    date: _dt.date | None = None
+    project: str = ""
+    organisation: str = ""
+    purpose: str = ""
+    scope: str = ""
+    assumptions: tuple[str, ...] = ()
+    references: tuple[str, ...] = ()
+    history: tuple[HistoryEntry, ...] = ()
+    conclusion: str = ""
+
+
+@dataclass(frozen=True)
+class Signature:
+    name: str
+    date: _dt.date | None = None
+
+
+@dataclass(frozen=True)
+class Signoff:
+    prepared: Signature | None = None
+    checked: Signature | None = None
+    approved: Signature | None = None
+    seal: str | None = None  # image path, relative to the project file
+
+    @property
+    def is_approved(self) -> bool:
+        return self.approved is not None
+
+
+@dataclass(frozen=True)
+class NodeWindow:
+    node: str
+    min: Number | None = None
+    max: Number | None = None
+
+
+@dataclass(frozen=True)
+class Limits:
+    power_fraction: Fraction = Fraction(1)
+    voltage_fraction: Fraction = Fraction(1)
+    current_fraction: Fraction = Fraction(1)
+    ambient: Fraction | None = None  # °C
+    derating: Derating | None = None
+    nodes: tuple[NodeWindow, ...] = ()
+
+
+@dataclass(frozen=True)
+class Setting:
+    """One ``set`` entry of a case: an element value or a parameter."""
+
+    target: str
+    text: str
+    expr: Node
+    dimension: Dimension
+
+
+@dataclass(frozen=True)
+class Case:
+    name: str
+    settings: tuple[Setting, ...] = ()
+    description: str = ""
+
+
+@dataclass(frozen=True)
+class Analysis:
+    tolerance: str = "none"  # none | extreme | montecarlo | rss
+    samples: int = 1000
+    seed: int = 1
+    distribution: str = "uniform"  # uniform | normal (tolerance = 3 sigma)
+    sensitivity: tuple[str, ...] = ()
+    temperature: Fraction | None = None  # °C, for tcr
+    reference_temperature: Fraction = Fraction(25)
+
+
+@dataclass(frozen=True)
+class Sweep:
+    target: str
+    start: Quantity
+    stop: Quantity
+    points: int
+    scale: str  # linear | log
+    outputs: tuple[str, ...]
+    name: str = ""
+
+
+@dataclass(frozen=True)
+class ReportSettings:
+    template: str = "standard"
+    paper: str | None = None
+    significant_figures: int = 4
+    conclusion: str = ""
+
+
+@dataclass(frozen=True)
+class Project:
+    """A validated project file."""
+
+    path: str
+    source: bytes
+    sha256: str
+    document: Document
+    signoff: Signoff
+    reference: str
+    parameters: tuple[Parameter, ...]
+    elements: tuple[Element, ...]
+    limits: Limits
+    cases: tuple[Case, ...]
+    analysis: Analysis
+    sweeps: tuple[Sweep, ...] = ()
+    report: ReportSettings = field(default_factory=ReportSettings)
+
+    def element(self, name: str) -> Element:
+        for e in self.elements:
+            if e.name == name:
+                return e
+        raise KeyError(name)
+
+    @property
+    def nodes(self) -> tuple[str, ...]:
+        """Every node name, the reference first, then in order of appearance."""
+        seen = {self.reference: None}
+        for e in self.elements:
+            for n in e.nodes:
+                seen.setdefault(n, None)
+        return tuple(seen)

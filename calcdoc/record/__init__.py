@@ -1,0 +1,1 @@
+"""calcdoc: record stage."""

@@ -1,0 +1,191 @@
+"""Consistency proofs: KCL at every node, KVL around every loop, power ledger.
+
+These use the *derived* element currents and each element's *own law*
+voltages (:class:`~calcdoc.mna.branches.Branches`), so they check the
+solution rather than restate it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from calcdoc.mna.branches import Branches
+from calcdoc.mna.netlist import Netlist
+
+LOOP_LISTING_LIMIT = 3000  # elements; above it loops are reported by chord only
+
+
+def kcl_residuals(net: Netlist, br: Branches) -> np.ndarray:
+    """Sum of currents leaving each node (A), reference first.
+
+    The reference entry is included for completeness; every entry is zero
+    up to rounding for a correct solution.
+
+    >>> from calcdoc.mna.netlist import Netlist
+    >>> from calcdoc.mna.solve import solve
+    >>> from calcdoc.mna.branches import branches
+    >>> net = Netlist(("gnd", "in", "out"), ("V1", "R1", "R2"),
+    ...     ("voltage_source", "resistor", "resistor"), np.array([1, 1, 2]),
+    ...     np.array([0, 2, 0]), (10, 1000, 1000), {}, {})
+    >>> [float(r) for r in kcl_residuals(net, branches(net, solve(net)))]
+    [0.0, 0.0, 0.0]
+    """
+    n = len(net.nodes)
+    out = np.bincount(net.a, weights=br.current, minlength=n)
+    inn = np.bincount(net.b, weights=br.current, minlength=n)
+    return out - inn
+
+
+@dataclass(frozen=True)
+class Loop:
+    """One fundamental loop: the chord, then the tree path back.
+
+    ``elements`` and ``signs``: +1 where the loop runs through the element
+    from its node a to its node b, −1 against.
+    """
+
+    chord: str
+    elements: tuple[str, ...]
+    signs: tuple[int, ...]
+    sum: float
+    terms: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class LoopCheck:
+    loops: tuple[Loop, ...]
+    listed: bool  # False: loops carry the chord and sum only
+    max_abs_sum: float
+
+
+def _tree(net: Netlist) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Breadth-first spanning tree from the reference.
+
+    Returns parent node, parent element, depth, and BFS order.
+    """
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import breadth_first_order
+
+    n = len(net.nodes)
+    g = coo_matrix((np.ones(len(net.a)), (net.a, net.b)), shape=(n, n)).tocsr()
+    order, pred = breadth_first_order(g, 0, directed=False, return_predecessors=True)
+    edge_of: dict[tuple[int, int], int] = {}
+    for j, (u, v) in enumerate(zip(net.a.tolist(), net.b.tolist(), strict=True)):
+        edge_of.setdefault((u, v) if u < v else (v, u), j)
+    parent_edge = np.full(n, -1, dtype=np.int64)
+    depth = np.zeros(n, dtype=np.int64)
+    for k in order[1:].tolist():
+        p = int(pred[k])
+        parent_edge[k] = edge_of[(p, k) if p < k else (k, p)]
+        depth[k] = depth[p] + 1
+    return pred, parent_edge, depth, order
+
+
+def kvl_loops(net: Netlist, br: Branches) -> LoopCheck:
+    """KVL around every fundamental loop of a BFS spanning tree.
+
+    Each loop sum uses the elements' own-law voltages; it is zero up to
+    rounding for a correct solution.
+
+    Returns
+    -------
+    LoopCheck
+        With every loop's ordered, signed terms when the circuit has at most
+        ``LOOP_LISTING_LIMIT`` elements; otherwise chords and sums only.
+    """
+    pred, pedge, depth, order = _tree(net)
+    law = br.law_voltage
+    a, b = net.a, net.b
+    n = len(net.nodes)
+    # tree potentials phi from the own-law voltages of tree elements
+    phi = np.zeros(n)
+    for k in order[1:].tolist():
+        j = int(pedge[k])
+        p = int(pred[k])
+        phi[k] = phi[p] - law[j] if int(a[j]) == p else phi[p] + law[j]
+    in_tree = np.zeros(len(net.names), dtype=bool)
+    in_tree[pedge[pedge >= 0]] = True
+    chords = np.flatnonzero(~in_tree)
+    sums = law[chords] + phi[b[chords]] - phi[a[chords]]
+    listed = len(net.names) <= LOOP_LISTING_LIMIT
+    loops = []
+    for c, s in zip(chords.tolist(), sums.tolist(), strict=True):
+        if not listed:
+            loops.append(Loop(net.names[c], (net.names[c],), (1,), s, ()))
+            continue
+        els, signs = [c], [1]
+        # walk from b up to the common ancestor, then from a up, reversed
+        u, v = int(b[c]), int(a[c])
+        up_b, up_a = [], []
+        while depth[u] > depth[v]:
+            up_b.append(u)
+            u = int(pred[u])
+        while depth[v] > depth[u]:
+            up_a.append(v)
+            v = int(pred[v])
+        while u != v:
+            up_b.append(u)
+            up_a.append(v)
+            u, v = int(pred[u]), int(pred[v])
+        for k in up_b:  # going from k up to its parent
+            j = int(pedge[k])
+            els.append(j)
+            signs.append(1 if int(a[j]) == k else -1)
+        for k in reversed(up_a):  # going from parent down to k
+            j = int(pedge[k])
+            els.append(j)
+            signs.append(1 if int(b[j]) == k else -1)
+        terms = tuple(float(sg * law[j]) for j, sg in zip(els, signs, strict=True))
+        loops.append(
+            Loop(
+                net.names[c],
+                tuple(net.names[j] for j in els),
+                tuple(signs),
+                float(sum(terms)),
+                terms,
+            )
+        )
+    worst = float(np.max(np.abs(sums))) if len(sums) else 0.0
+    return LoopCheck(tuple(loops), listed, worst)
+
+
+@dataclass(frozen=True)
+class Ledger:
+    """Power balance (W): absorbed by, delivered by, and the imbalance."""
+
+    absorbed: float
+    delivered: float
+    imbalance: float
+    by_element: tuple[tuple[str, float], ...]
+
+    @property
+    def relative(self) -> float:
+        scale = max(self.absorbed, self.delivered)
+        return abs(self.imbalance) / scale if scale else 0.0
+
+
+def power_ledger(net: Netlist, br: Branches) -> Ledger:
+    """Absorbed and delivered power and their difference (Tellegen: zero).
+
+    ``absorbed`` sums the positive element powers, ``delivered`` the
+    magnitudes of the negative ones.
+    """
+    p = br.power
+    if br.exact_current is not None and br.exact_node_voltage is not None:
+        nv = br.exact_node_voltage
+        exact = [
+            (nv[int(a)] - nv[int(b)]) * i
+            for a, b, i in zip(net.a, net.b, br.exact_current, strict=True)
+        ]
+        absorbed = sum((x for x in exact if x > 0), start=0)
+        delivered = -sum((x for x in exact if x < 0), start=0)
+        imbalance = float(absorbed - delivered)
+        absorbed, delivered = float(absorbed), float(delivered)
+    else:
+        absorbed = float(p[p > 0].sum())
+        delivered = float(-p[p < 0].sum())
+        imbalance = float(p.sum())
+    by_el = tuple(zip(net.names, (float(v) for v in p), strict=True)) if len(p) <= 5000 else ()
+    return Ledger(absorbed, delivered, imbalance, by_el)
