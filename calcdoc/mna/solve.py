@@ -83,7 +83,7 @@ def _exact_solve(A: list[list[Fraction]], z: list[Fraction]) -> list[Fraction] |
                 Mi = M[i]
                 M[i] = [vi - f * vr for vi, vr in zip(Mi, rowr, strict=True)]
         where[c] = r
-        r += 1
+        r += 1  # noqa: SIM113
     return [M[where[c]][n] for c in range(n)]
 
 

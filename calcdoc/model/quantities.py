@@ -133,7 +133,7 @@ _SYMBOLS: dict[str, tuple[Fraction, Dimension]] = {
     "W": (Fraction(1), WATT),
     "ohm": (Fraction(1), OHM),
     "Ω": (Fraction(1), OHM),  # U+03A9 Greek capital omega
-    "Ω": (Fraction(1), OHM),  # U+2126 ohm sign
+    "\u2126": (Fraction(1), OHM),  # ohm sign
     "S": (Fraction(1), SIEMENS),
     "m": (Fraction(1), METRE),
     "s": (Fraction(1), SECOND),
