@@ -167,6 +167,6 @@ class Terminal:
             self.line(
                 f"Worst utilisation: {percent(worst[1].utilization)} at {worst[1].id} [{worst[0]}]"
             )
-        for note in getattr(results, "notes", ()):
+        for note in results.notes:
             self.line(note)
         self.line("RESULT: " + ("FAIL" if failed else "PASS"))

@@ -65,7 +65,28 @@ class Results:
 
     @property
     def failed(self) -> tuple[tuple[str, Check], ...]:
-        return tuple((r.name, c) for r in self.cases for c in r.failed)
+        """Failing checks as (case name, check), analysis stages included.
+
+        An analysis stage in ``extra`` may add its own failures (e.g. a
+        check failing at a tolerance extreme) through a ``failed_checks()``
+        method returning the same pairs.
+        """
+        out = [(r.name, c) for r in self.cases for c in r.failed]
+        for data in self.extra.values():
+            more = getattr(data, "failed_checks", None)
+            if more is not None:
+                out.extend(more())
+        return tuple(out)
+
+    @property
+    def notes(self) -> tuple[str, ...]:
+        """One-line summaries from analysis stages, for the terminal."""
+        out: list[str] = []
+        for data in self.extra.values():
+            more = getattr(data, "notes", None)
+            if more is not None:
+                out.extend(more())
+        return tuple(out)
 
     @property
     def worst(self) -> tuple[str, Check] | None:
