@@ -40,9 +40,12 @@ class Terminal:
         if getattr(self.err, "isatty", lambda: False)():
             print("\r\033[K", end="", file=self.err, flush=True)
 
-    def json(self, obj: Any) -> None:
-        json.dump(obj, self.out, indent=1, ensure_ascii=False, allow_nan=False)
-        self.out.write("\n")
+    def json(self, obj: Any, *, compact: bool | None = None) -> None:
+        """Print ``obj`` as JSON; large objects compact (the indenting encoder is slow)."""
+        text = json.dumps(obj, ensure_ascii=False, allow_nan=False)
+        if not compact and (compact is not None or len(text) < 200_000):
+            text = json.dumps(obj, indent=1, ensure_ascii=False, allow_nan=False)
+        self.out.write(text + "\n")
 
     def eng(self, value: float, unit: str, sig: int = 4) -> str:
         return eng(value, unit, sig, ascii_only=self.ascii_only)

@@ -28,6 +28,7 @@ import re
 from collections.abc import Mapping
 from dataclasses import dataclass
 from fractions import Fraction
+from functools import lru_cache
 
 from calcdoc.model.quantities import (
     NONE,
@@ -134,6 +135,15 @@ class _Parser:
         self.i += 1
         return tok
 
+    def _unit_power(self) -> str:
+        """A whole-number power written on a unit (``ohm^2``) belongs to the unit."""
+        op, num = self.peek(), self.peek(1)
+        if op and op[1] in ("^", "**") and num and num[0] == "number" and num[1].isdigit():
+            self.take()
+            self.take()
+            return "^" + num[1]
+        return ""
+
     def adjacent(self) -> bool:
         """True when the next token touches the previous one (no space)."""
         if self.i == 0 or self.i >= len(self.toks):
@@ -236,7 +246,7 @@ class _Parser:
             if not is_unit(nxt[1]):
                 raise ExpressionError(f"{nxt[1]!r} after {text} is not a unit")
             self.take()
-            unit_parts.append(nxt[1])
+            unit_parts.append(nxt[1] + self._unit_power())
             # compound units: "21 mohm/m", "100 ppm/K"
             while (
                 (op := self.peek())
@@ -248,7 +258,7 @@ class _Parser:
             ):
                 self.take()
                 self.take()
-                unit_parts.append("/" + u[1])
+                unit_parts.append("/" + u[1] + self._unit_power())
         unit = "".join(unit_parts)
         try:
             factor, dim = unit_factor(unit)
@@ -258,6 +268,7 @@ class _Parser:
         return Literal(value, f"{text} {unit}".strip())
 
 
+@lru_cache(maxsize=65536)
 def parse_expression(text: str) -> Node:
     """Parse a value expression into a tree.
 

