@@ -1,12 +1,12 @@
 """calcdoc: calculation records for linear DC circuits.
 
 Load a project file, solve it by Modified Nodal Analysis, verify the
-results and write the calculation package:
+results and write the calculation package::
 
->>> import calcdoc  # doctest: +SKIP
->>> project = calcdoc.load("project.toml")  # doctest: +SKIP
->>> results = calcdoc.solve(project)  # doctest: +SKIP
->>> results.cases[0].checks  # doctest: +SKIP
+    import calcdoc
+    project = calcdoc.load("project.toml")
+    results = calcdoc.solve(project)
+    results.cases[0].checks
 """
 
 from __future__ import annotations

@@ -11,7 +11,12 @@ def project_text(elements, *, reference="gnd", extra=""):
     for item in elements:
         name, etype, (a, b), value, *rest = item
         key = "gain" if etype in ("vcvs", "vccs", "ccvs", "cccs") else "value"
-        lines += [f"[elements.{name}]", f'type = "{etype}"', f'nodes = ["{a}", "{b}"]', f'{key} = "{value}"']
+        lines += [
+            f"[elements.{name}]",
+            f'type = "{etype}"',
+            f'nodes = ["{a}", "{b}"]',
+            f'{key} = "{value}"',
+        ]
         for k, v in (rest[0] if rest else {}).items():
             lines.append(f"{k} = {v}")
     return "\n".join(lines) + "\n" + extra

@@ -96,7 +96,8 @@ class _Faults:
 
 
 def _hint(word: str, choices: Any) -> str:
-    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.6)
+    cutoff = 0.5 if len(word) <= 3 else 0.6
+    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=cutoff)
     return f" (did you mean {close[0]!r}?)" if close else ""
 
 
@@ -444,7 +445,10 @@ def _resolved(
     if isinstance(expr, Literal):
         q = expr.value
         if q.dimension != dim:
-            faults.add(path, f"expected {dimension_name(dim)}, found {dimension_name(q.dimension)} in {text!r}")
+            faults.add(
+                path,
+                f"expected {dimension_name(dim)}, found {dimension_name(q.dimension)} in {text!r}",
+            )
             return None
         return q
     for dep in names_in(expr):
@@ -611,7 +615,7 @@ def _elements(
     return out
 
 
-def _limits(raw: Any, faults: _Faults, nodes: set[str]) -> Limits:
+def _limits(raw: Any, faults: _Faults, nodes: set[str], declared_nodes: Any = ()) -> Limits:
     t = _table(raw, "limits", faults)
     _keys(
         t,
@@ -629,7 +633,8 @@ def _limits(raw: Any, faults: _Faults, nodes: set[str]) -> Limits:
     for node, spec in _table(t.get("nodes"), "limits.nodes", faults).items():
         path = f"limits.nodes.{node}"
         if node not in nodes:
-            faults.add(path, f"no such node{_hint(node, nodes)}")
+            if node not in declared_nodes:
+                faults.add(path, f"no such node{_hint(node, nodes)}")
             continue
         spec = _table(spec, path, faults)
         _keys(spec, ("min", "max"), path, faults)
@@ -649,7 +654,11 @@ def _limits(raw: Any, faults: _Faults, nodes: set[str]) -> Limits:
 
 
 def _cases(
-    raw: Any, faults: _Faults, elements: Mapping[str, Element], params: Mapping[str, Parameter]
+    raw: Any,
+    faults: _Faults,
+    elements: Mapping[str, Element],
+    params: Mapping[str, Parameter],
+    declared: Any = (),
 ) -> list[Case]:
     if raw is None:
         return []
@@ -678,7 +687,10 @@ def _cases(
             elif target in params:
                 dim = params[target].value.dimension
             else:
-                faults.add(spath, f"no element or parameter of that name{_hint(target, targets)}")
+                if target not in declared:
+                    faults.add(
+                        spath, f"no element or parameter of that name{_hint(target, targets)}"
+                    )
                 continue
             ve = _value_expr(value, spath, faults, dim)
             if ve is None:
@@ -890,6 +902,16 @@ def _toml(text: str, faults: _Faults) -> dict[str, Any] | None:
         return None
 
 
+def _declared_nodes(raw: Any) -> set[str]:
+    """Node names written in the element tables, valid or not (to avoid cascading faults)."""
+    out: set[str] = set()
+    if isinstance(raw, dict):
+        for spec in raw.values():
+            if isinstance(spec, dict) and isinstance(spec.get("nodes"), list):
+                out.update(n for n in spec["nodes"] if isinstance(n, str))
+    return out
+
+
 def parse_project(source: bytes | str, path: str = "<input>") -> Project:
     """Validate project-file text into a :class:`Project`.
 
@@ -968,9 +990,11 @@ def parse_project(source: bytes | str, path: str = "<input>") -> Project:
             f"parameters.{name}",
             f"{name!r} is also an element name; case settings would be ambiguous",
         )
-    limits = _limits(data.get("limits"), faults, nodes)
+    limits = _limits(data.get("limits"), faults, nodes, _declared_nodes(data.get("elements")))
     pmap = {p.name: p for p in params}
-    cases = _cases(data.get("cases"), faults, by_name, pmap)
+    declared = set(data["elements"]) if isinstance(data.get("elements"), dict) else set()
+    declared |= param_names
+    cases = _cases(data.get("cases"), faults, by_name, pmap, declared)
     analysis = _analysis(data.get("analysis"), faults, nodes, by_name)
     sweeps = _sweeps(data.get("sweeps"), faults, nodes, by_name, pmap)
     report = _report(data.get("report"), faults)

@@ -1,0 +1,205 @@
+"""Validation: every fault named by file, key path and cause, all collected."""
+
+from __future__ import annotations
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+import calcdoc
+from calcdoc.errors import ProjectError
+
+GOOD = """
+schema = 1
+[document]
+title = "Divider"
+revision = "A"
+[parameters]
+r_top = "4k7"
+r_bot = "r_top / 2"
+[elements.V1]
+type = "voltage_source"
+nodes = ["in", "gnd"]
+value = "12 V"
+rating = { current = "1 A" }
+[elements.R1]
+type = "resistor"
+nodes = ["in", "out"]
+value = "r_top"
+tolerance = "1 %"
+rating = { power = "0.25 W", voltage = "200 V" }
+[elements.R2]
+type = "resistor"
+nodes = ["out", "gnd"]
+value = "r_bot"
+tolerance = { minus = "2 %", plus = "1 %" }
+[limits]
+power_fraction = 0.5
+[limits.nodes.out]
+min = "3 V"
+max = "5 V"
+[[cases]]
+name = "High line"
+set = { V1 = "13.2 V", r_top = "5 kohm" }
+[analysis]
+tolerance = "extreme"
+"""
+
+
+def faults_of(text: str) -> list[tuple[str, str]]:
+    with pytest.raises(ProjectError) as info:
+        calcdoc.loads(text, "p.toml")
+    return [(f.path, f.message) for f in info.value.faults]
+
+
+def test_good_project_loads():
+    p = calcdoc.loads(GOOD)
+    assert [e.name for e in p.elements] == ["V1", "R1", "R2"]
+    assert float(p.element("R2").value) == 2350.0
+    assert p.element("R2").tolerance.minus == pytest.approx(0.02)
+
+
+def replace(old: str, new: str) -> str:
+    assert old in GOOD
+    return GOOD.replace(old, new, 1)
+
+
+@pytest.mark.parametrize(
+    ("text", "path", "words"),
+    [
+        (
+            replace('tolerance = "1 %"', 'tolerence = "1 %"'),
+            "elements.R1.tolerence",
+            "did you mean 'tolerance'",
+        ),
+        (
+            replace('rating = { power = "0.25 W"', 'rating = { powr = "0.25 W"'),
+            "elements.R1.rating.powr",
+            "did you mean 'power'",
+        ),
+        (replace('value = "r_top"', 'value = "12 V"'), "elements.R1.value", "expected resistance"),
+        (replace('value = "12 V"', 'value = "12 kohm"'), "elements.V1.value", "expected voltage"),
+        (
+            replace('type = "resistor"', 'type = "resistr"'),
+            "elements.R1.type",
+            "did you mean 'resistor'",
+        ),
+        (
+            replace('value = "r_top"', 'value = "r_tpo"'),
+            "elements.R1.value",
+            "did you mean 'r_top'",
+        ),
+        (replace('r_top = "4k7"', 'r_top = "r_bot * 2"'), "parameters.r_top", "cycle"),
+        (
+            replace('nodes = ["out", "gnd"]', 'nodes = ["out", "out"]'),
+            "elements.R2.nodes",
+            "both terminals",
+        ),
+        (
+            replace("[limits.nodes.out]", "[limits.nodes.ot]"),
+            "limits.nodes.ot",
+            "did you mean 'out'",
+        ),
+        (
+            replace('set = { V1 = "13.2 V"', 'set = { V2 = "13.2 V"'),
+            "cases[0].set.V2",
+            "did you mean 'V1'",
+        ),
+        (
+            replace('tolerance = "extreme"', 'tolerance = "extremes"'),
+            "analysis.tolerance",
+            "did you mean 'extreme'",
+        ),
+        (
+            replace("power_fraction = 0.5", "power_fraction = 1.5"),
+            "limits.power_fraction",
+            "at most 1",
+        ),
+        (replace("[document]", "[documnet]"), "documnet", "did you mean 'document'"),
+        (replace('value = "12 V"', "value = 12"), "elements.V1.value", "with its unit"),
+        (replace('tolerance = "1 %"', 'tolerance = "-1 %"'), "elements.R1.tolerance", "positive"),
+        (
+            GOOD
+            + '\n[elements.E1]\ntype = "vcvs"\nnodes = ["x", "gnd"]\ngain = "2"\ncontrol = ["in", "nowhere"]\n',
+            "elements.E1.control",
+            "no such node",
+        ),
+        (
+            GOOD
+            + '\n[elements.F1]\ntype = "cccs"\nnodes = ["out", "gnd"]\ngain = "2"\ncontrol = "Vx"\n',
+            "elements.F1.control",
+            "no such element",
+        ),
+        (
+            GOOD.replace("[circuit]", "") + '\n[circuit]\nreference = "ground"\n',
+            "circuit.reference",
+            "not a terminal",
+        ),
+        ("schema = 2\n" + GOOD.replace("schema = 1", ""), "schema", "schema 1"),
+    ],
+)
+def test_fault_names_key_path(text, path, words):
+    faults = faults_of(text)
+    assert any(p == path and words in m for p, m in faults), faults
+
+
+def test_all_faults_collected_in_one_error():
+    text = replace('tolerance = "1 %"', 'tolerence = "1 %"').replace(
+        'value = "12 V"', 'value = "12 A"'
+    )
+    with pytest.raises(ProjectError) as info:
+        calcdoc.loads(text, "p.toml")
+    assert len(info.value.faults) == 2
+    assert info.value.message.startswith("p.toml: 2 problems")
+
+
+def test_syntax_error_names_line_and_column():
+    with pytest.raises(ProjectError) as info:
+        calcdoc.loads('schema = 1\n[elements.R1\ntype = "resistor"\n', "p.toml")
+    f = info.value.faults[0]
+    assert f.line == 2 and f.column is not None
+    assert info.value.message.startswith("p.toml:2:")
+
+
+def test_not_utf8():
+    with pytest.raises(ProjectError, match="not UTF-8"):
+        calcdoc.loads(b"\xff\xfe\x00", "p.toml")
+
+
+def test_missing_file_is_input_error(tmp_path):
+    with pytest.raises(ProjectError, match="cannot read"):
+        calcdoc.load(tmp_path / "nope.toml")
+
+
+# ---- fuzzing: random and mutated project files raise only ProjectError
+
+
+@settings(deadline=None, max_examples=200, suppress_health_check=[HealthCheck.too_slow])
+@given(st.data())
+def test_mutated_projects_raise_only_project_errors(data):
+    text = GOOD
+    for _ in range(data.draw(st.integers(1, 4))):
+        pos = data.draw(st.integers(0, len(text)))
+        op = data.draw(st.sampled_from(["delete", "insert", "replace"]))
+        chunk = data.draw(
+            st.text(alphabet='[]{}="., 0123456789abcdefkVWAΩ%#\n-_', min_size=1, max_size=6)
+        )
+        if op == "delete":
+            text = text[:pos] + text[pos + len(chunk) :]
+        elif op == "insert":
+            text = text[:pos] + chunk + text[pos:]
+        else:
+            text = text[:pos] + chunk + text[pos + len(chunk) :]
+    try:
+        calcdoc.loads(text, "fuzz.toml")
+    except ProjectError as exc:
+        assert exc.message.startswith("fuzz.toml")
+
+
+@settings(deadline=None, max_examples=100)
+@given(st.binary(max_size=200))
+def test_random_bytes_raise_only_project_errors(blob):
+    try:
+        calcdoc.loads(blob, "fuzz.toml")
+    except ProjectError:
+        pass
