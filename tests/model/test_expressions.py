@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 from fractions import Fraction
 
 import pytest
@@ -64,7 +65,5 @@ def test_hostile_expressions_are_rejected(text):
 @settings(deadline=None, max_examples=300)
 @given(st.text(alphabet="0123456789+-*/^().,% abkKmRVAW_ΩµeE", max_size=40))
 def test_random_text_raises_only_expression_errors(text):
-    try:
+    with contextlib.suppress(ExpressionError, QuantityError):
         evaluate(parse_expression(text), ENV)
-    except (ExpressionError, QuantityError):
-        pass
