@@ -65,3 +65,33 @@ def test_resistance_distance_matches_networkx():
     v = dict(zip(res.netlist.nodes, res.branches.node_voltage, strict=True))
     expected = nx.resistance_distance(g, 0, 5, weight="weight", invert_weight=False)
     assert v["n0"] == pytest.approx(expected, rel=1e-9)
+
+
+def test_demo_projects_cover_every_element_type():
+    from pathlib import Path
+
+    from calcdoc.model.elements import KINDS
+
+    root = Path(__file__).resolve().parent.parent
+    seen = set()
+    for f in sorted((root / "projects").glob("*.toml")):
+        p = calcdoc.load(f)
+        seen |= {e.type for e in p.elements}
+        calcdoc.solve(p)
+    assert seen == set(KINDS)
+    calcdoc.solve(calcdoc.load(root / "templates" / "starter.toml"))
+
+
+def test_instrument_loop_hand_values():
+    # Hand check: 20 mA through 250 Ω gives 5 V; the repeater copies 20 mA into
+    # 500 Ω (10 V); the converter gives 250 Ω x 20 mA = 5 V; the meter driver
+    # pushes 0.4 mS x 5 V = 2 mA into 1 kΩ (2 V).
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parent.parent
+    r = calcdoc.solve(calcdoc.load(root / "projects" / "instrument_loop.toml")).cases[0]
+    v = dict(zip(r.netlist.nodes, r.branches.node_voltage.tolist(), strict=True))
+    assert v["sense"] == pytest.approx(5.0)
+    assert v["rep"] == pytest.approx(10.0)
+    assert v["conv"] == pytest.approx(5.0)
+    assert v["meter"] == pytest.approx(2.0)
