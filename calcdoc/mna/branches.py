@@ -41,6 +41,7 @@ class Branches:
     law_voltage: np.ndarray
     exact_node_voltage: tuple[Fraction, ...] | None = None
     exact_current: tuple[Fraction, ...] | None = None
+    exact_law_voltage: tuple[Fraction, ...] | None = None
 
 
 def branches(net: Netlist, sol: Solution) -> Branches:
@@ -133,4 +134,5 @@ def _exact(net: Netlist, sol: Solution, col: dict[int, int]) -> Branches:
         f([float(v) for v in law]),
         tuple(nv),
         tuple(cur),
+        tuple(law),
     )

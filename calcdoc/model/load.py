@@ -547,6 +547,9 @@ def _elements(
                     f"{path}.control", 'expected the controlling node pair, such as ["in", "gnd"]'
                 )
                 ok = False
+            elif c[0] == c[1]:
+                faults.add(f"{path}.control", f"both control terminals are on node {c[0]!r}")
+                ok = False
             else:
                 control_nodes = (c[0], c[1])
         else:

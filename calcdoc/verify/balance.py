@@ -138,16 +138,17 @@ def kvl_loops(net: Netlist, br: Branches) -> LoopCheck:
             els.append(j)
             signs.append(1 if int(b[j]) == k else -1)
         terms = tuple(float(sg * law[j]) for j, sg in zip(els, signs, strict=True))
-        loops.append(
-            Loop(
-                net.names[c],
-                tuple(net.names[j] for j in els),
-                tuple(signs),
-                float(sum(terms)),
-                terms,
-            )
-        )
-    worst = float(np.max(np.abs(sums))) if len(sums) else 0.0
+        if br.exact_law_voltage is not None:  # exact path: the sum is exact too
+            exact = br.exact_law_voltage
+            total = float(sum((sg * exact[j] for j, sg in zip(els, signs, strict=True)), 0))
+        else:
+            total = float(sum(terms))
+        names = tuple(net.names[j] for j in els)
+        loops.append(Loop(net.names[c], names, tuple(signs), total, terms))
+    if listed:
+        worst = max((abs(lp.sum) for lp in loops), default=0.0)
+    else:
+        worst = float(np.max(np.abs(sums))) if len(sums) else 0.0
     return LoopCheck(tuple(loops), listed, worst)
 
 
