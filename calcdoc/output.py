@@ -109,7 +109,7 @@ class Terminal:
             kcl = float(abs(r.kcl).max()) if len(r.kcl) else 0.0
             self.line(
                 f"KCL: largest residual {self.eng(kcl, 'A')} over {len(net.nodes) - 1} nodes; "
-                f"KVL: largest loop sum {self.eng(r.kvl.max_abs_sum, 'V')} over {len(r.kvl.loops)} loops"
+                f"KVL: largest loop sum {self.eng(r.kvl.max_abs_sum, 'V')} over {r.kvl.count} loops"
             )
             led = r.ledger
             self.line(

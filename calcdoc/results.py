@@ -196,7 +196,7 @@ def case_document(r: CaseResult) -> dict[str, Any]:
     if r.kvl.listed:
         kvl = [{"loop": list(lp.elements), "sum": lp.sum} for lp in r.kvl.loops]
     else:
-        kvl = [{"chord": lp.chord, "sum": lp.sum} for lp in r.kvl.loops]
+        kvl = [{"chord": c, "sum": v} for c, v in zip(r.kvl.chords, r.kvl.sums, strict=True)]
     return {
         "name": r.name,
         "nodes": nodes,

@@ -63,7 +63,7 @@ def branches(net: Netlist, sol: Solution) -> Branches:
         return _exact(net, sol, col)
     x = sol.x
     nv = np.concatenate([[0.0], x[: n_nodes - 1]])
-    vals = np.array([float(v) for v in net.values])
+    vals = net.floats()
     v = nv[net.a] - nv[net.b]
     i = np.zeros(len(net.names))
     law = v.copy()

@@ -255,7 +255,7 @@ def stamps(net: Netlist) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray
     col_of = {j: n_nodes - 1 + i for i, j in enumerate(cur)}
     n = n_nodes - 1 + len(cur)
     types = np.array(net.types)
-    vals = np.array([float(v) for v in net.values], dtype=float)
+    vals = net.floats()
     a, b = net.a - 1, net.b - 1  # matrix index; -1 means reference
     plain = (types == "resistor") & ~np.isin(np.arange(len(types)), cur)
     ra, rb = a[plain], b[plain]

@@ -45,6 +45,13 @@ class Netlist:
     values: tuple[Number, ...]
     control_nodes: dict[int, tuple[int, int]]
     control_element: dict[int, int]
+    float_values: np.ndarray | None = None
+
+    def floats(self) -> np.ndarray:
+        """Element values as a float64 array."""
+        if self.float_values is not None:
+            return self.float_values
+        return np.array([float(v) for v in self.values], dtype=float)
 
     @property
     def reference(self) -> str:
@@ -87,7 +94,8 @@ def netlist(project: Project, values: Mapping[str, Number] | None = None) -> Net
             cn[j] = (index[e.control_nodes[0]], index[e.control_nodes[1]])
         elif e.control_element is not None:
             ce[j] = pos[e.control_element]
-    return Netlist(nodes, names, tuple(e.type for e in els), a, b, vals, cn, ce)
+    floats = np.fromiter((float(v) for v in vals), dtype=float, count=len(vals))
+    return Netlist(nodes, names, tuple(e.type for e in els), a, b, vals, cn, ce, floats)
 
 
 def defines(net: Netlist) -> list[str]:

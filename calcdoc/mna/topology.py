@@ -53,22 +53,21 @@ def diagnose(net: Netlist) -> None:
         ``"current-source cut set"``.
     """
     kinds = defines(net)
-    for j, k in enumerate(kinds):
-        if k == "resistance":
-            v = net.values[j]
-            if v == 0:
-                raise SingularCircuitError(
-                    "zero-ohm resistor",
-                    f"{net.names[j]} has zero resistance, which has no conductance to stamp; "
-                    "join its nodes or model it as a 0 V voltage source",
-                    (net.names[j],),
-                )
-            if v < 0:
-                raise SingularCircuitError(
-                    "negative resistance",
-                    f"{net.names[j]} has a negative resistance",
-                    (net.names[j],),
-                )
+    vals = net.floats()
+    res = np.array([k == "resistance" for k in kinds], dtype=bool)
+    bad = np.flatnonzero(res & (vals <= 0))
+    if len(bad):
+        j = int(bad[0])
+        if net.values[j] == 0:
+            raise SingularCircuitError(
+                "zero-ohm resistor",
+                f"{net.names[j]} has zero resistance, which has no conductance to stamp; "
+                "join its nodes or model it as a 0 V voltage source",
+                (net.names[j],),
+            )
+        raise SingularCircuitError(
+            "negative resistance", f"{net.names[j]} has a negative resistance", (net.names[j],)
+        )
     n = len(net.nodes)
     labels = _components(n, net.a, net.b)
     floating = [net.nodes[i] for i in range(n) if labels[i] != labels[0]]

@@ -55,15 +55,28 @@ class Loop:
 
 @dataclass(frozen=True)
 class LoopCheck:
+    """KVL over the fundamental loops.
+
+    ``loops`` lists every loop with its terms when ``listed``; for large
+    circuits it is empty and ``chords`` / ``sums`` give each loop's closing
+    element and its sum (V).
+    """
+
     loops: tuple[Loop, ...]
-    listed: bool  # False: loops carry the chord and sum only
+    listed: bool
     max_abs_sum: float
+    chords: tuple[str, ...] = ()
+    sums: tuple[float, ...] = ()
+
+    @property
+    def count(self) -> int:
+        return len(self.loops) if self.listed else len(self.chords)
 
 
 def _tree(net: Netlist) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Breadth-first spanning tree from the reference.
 
-    Returns parent node, parent element, depth, and BFS order.
+    Returns parent node, parent element, depth, and BFS order (all arrays).
     """
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import breadth_first_order
@@ -71,14 +84,19 @@ def _tree(net: Netlist) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
     n = len(net.nodes)
     g = coo_matrix((np.ones(len(net.a)), (net.a, net.b)), shape=(n, n)).tocsr()
     order, pred = breadth_first_order(g, 0, directed=False, return_predecessors=True)
-    edge_of: dict[tuple[int, int], int] = {}
-    for j, (u, v) in enumerate(zip(net.a.tolist(), net.b.tolist(), strict=True)):
-        edge_of.setdefault((u, v) if u < v else (v, u), j)
+    # the element joining each node to its parent: look the pair up among
+    # the elements' sorted node-pair keys (first element of a parallel group)
+    lo, hi = np.minimum(net.a, net.b), np.maximum(net.a, net.b)
+    keys = lo * n + hi
+    sort = np.argsort(keys, kind="stable")
+    sorted_keys = keys[sort]
+    kids = order[1:]
+    par = pred[kids]
+    want = np.minimum(par, kids) * n + np.maximum(par, kids)
     parent_edge = np.full(n, -1, dtype=np.int64)
+    parent_edge[kids] = sort[np.searchsorted(sorted_keys, want)]
     depth = np.zeros(n, dtype=np.int64)
-    for k in order[1:].tolist():
-        p = int(pred[k])
-        parent_edge[k] = edge_of[(p, k) if p < k else (k, p)]
+    for k, p in zip(kids.tolist(), par.tolist(), strict=True):
         depth[k] = depth[p] + 1
     return pred, parent_edge, depth, order
 
@@ -99,22 +117,31 @@ def kvl_loops(net: Netlist, br: Branches) -> LoopCheck:
     law = br.law_voltage
     a, b = net.a, net.b
     n = len(net.nodes)
-    # tree potentials phi from the own-law voltages of tree elements
+    # tree potentials phi from the own-law voltages of tree elements, one BFS level at a time
     phi = np.zeros(n)
-    for k in order[1:].tolist():
-        j = int(pedge[k])
-        p = int(pred[k])
-        phi[k] = phi[p] - law[j] if int(a[j]) == p else phi[p] + law[j]
+    kids = order[1:]
+    levels = depth[kids]
+    by_level = np.argsort(levels, kind="stable")
+    kids, levels = kids[by_level], levels[by_level]
+    bounds = np.flatnonzero(np.diff(levels)) + 1
+    for group in np.split(kids, bounds):
+        if not len(group):
+            continue
+        j = pedge[group]
+        p = pred[group]
+        down = a[j] == p
+        phi[group] = np.where(down, phi[p] - law[j], phi[p] + law[j])
     in_tree = np.zeros(len(net.names), dtype=bool)
     in_tree[pedge[pedge >= 0]] = True
     chords = np.flatnonzero(~in_tree)
     sums = law[chords] + phi[b[chords]] - phi[a[chords]]
     listed = len(net.names) <= LOOP_LISTING_LIMIT
     loops = []
-    for c, s in zip(chords.tolist(), sums.tolist(), strict=True):
-        if not listed:
-            loops.append(Loop(net.names[c], (net.names[c],), (1,), s, ()))
-            continue
+    if not listed:
+        worst = float(np.max(np.abs(sums))) if len(sums) else 0.0
+        names = tuple(net.names[c] for c in chords.tolist())
+        return LoopCheck((), False, worst, names, tuple(sums.tolist()))
+    for c in chords.tolist():
         els, signs = [c], [1]
         # walk from b up to the common ancestor, then from a up, reversed
         u, v = int(b[c]), int(a[c])
@@ -145,10 +172,7 @@ def kvl_loops(net: Netlist, br: Branches) -> LoopCheck:
             total = float(sum(terms))
         names = tuple(net.names[j] for j in els)
         loops.append(Loop(net.names[c], names, tuple(signs), total, terms))
-    if listed:
-        worst = max((abs(lp.sum) for lp in loops), default=0.0)
-    else:
-        worst = float(np.max(np.abs(sums))) if len(sums) else 0.0
+    worst = max((abs(lp.sum) for lp in loops), default=0.0)
     return LoopCheck(tuple(loops), listed, worst)
 
 
