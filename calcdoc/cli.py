@@ -83,6 +83,16 @@ def main(argv: Sequence[str] | None = None) -> int:
         term.error("interrupted")
     except BrokenPipeError:  # pragma: no cover - e.g. piped into head
         return EXIT_OK
+    except Exception as exc:  # pragma: no cover - a bug: still no traceback for the user
+        import os
+
+        if os.environ.get("CALCDOC_DEBUG"):
+            raise
+        where = getattr(args, "file", None) or getattr(args, "package", None) or ""
+        term.error(
+            f"{where}: internal error while processing this input ({type(exc).__name__}: {exc}); "
+            "set CALCDOC_DEBUG=1 for details and please report it"
+        )
     return EXIT_INPUT
 
 

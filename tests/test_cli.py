@@ -77,6 +77,17 @@ BAD = {
         '[elements.R1]\ntype = "resistor"\nnodes = ["a", "gnd"]\nvalue = "0 ohm"\n',
         "elements.R1.value: zero-ohm resistor",
     ),
+    "too large": (
+        '[elements.V1]\ntype = "voltage_source"\nnodes = ["a", "gnd"]\nvalue = "1e400 V"\n'
+        '[elements.R1]\ntype = "resistor"\nnodes = ["a", "gnd"]\nvalue = "5 ohm"\n',
+        "elements.V1.value: the value is too large",
+    ),
+    "case divides by zero": (
+        '[parameters]\nx = "1 ohm"\n[elements.V1]\ntype = "voltage_source"\nnodes = ["a", "gnd"]\n'
+        'value = "1 V"\n[elements.R1]\ntype = "resistor"\nnodes = ["a", "gnd"]\nvalue = "1 ohm * 1 ohm / x"\n'
+        '[[cases]]\nname = "z"\nset = { x = "0 ohm" }\n',
+        "cases[0].set: with these settings",
+    ),
     "hostile": (
         '[elements.V1]\ntype = "voltage_source"\nnodes = ["a", "gnd"]\nvalue = "__import__(\'os\')"\n',
         "elements.V1.value",

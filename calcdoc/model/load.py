@@ -196,7 +196,7 @@ def _quantity(value: Any, dim: Dimension, path: str, faults: _Faults) -> Quantit
             f"expected {dimension_name(dim)}, found {dimension_name(q.dimension)} in {value!r}",
         )
         return None
-    return q
+    return q if _representable(q, path, faults) else None
 
 
 def _example(dim: Dimension) -> str:
@@ -433,6 +433,21 @@ def _value_expr(value: Any, path: str, faults: _Faults, dim: Dimension) -> tuple
         return None
 
 
+def _representable(q: Quantity, path: str, faults: _Faults) -> bool:
+    """The value must fit a float64 (solving and reporting use floats)."""
+    try:
+        f = abs(float(q.magnitude))
+    except OverflowError:
+        f = float("inf")
+    if f > 1e200:
+        faults.add(path, "the value is too large to compute with (above 1e200 in SI units)")
+        return False
+    if q.magnitude != 0 and f < 1e-200:
+        faults.add(path, "the value is too small to compute with (below 1e-200 in SI units)")
+        return False
+    return True
+
+
 def _resolved(
     text_expr: tuple[str, Node],
     path: str,
@@ -450,7 +465,7 @@ def _resolved(
                 f"expected {dimension_name(dim)}, found {dimension_name(q.dimension)} in {text!r}",
             )
             return None
-        return q
+        return q if _representable(q, path, faults) else None
     for dep in names_in(expr):
         if dep not in params:
             if dep in known_params:
@@ -467,7 +482,7 @@ def _resolved(
             path, f"expected {dimension_name(dim)}, found {dimension_name(q.dimension)} in {text!r}"
         )
         return None
-    return q
+    return q if _representable(q, path, faults) else None
 
 
 def _node_ok(name: Any, good: set[str]) -> bool:
@@ -482,8 +497,11 @@ def _node_ok(name: Any, good: set[str]) -> bool:
 def _elements(
     raw: Any, faults: _Faults, params: Mapping[str, Quantity], param_names: Any
 ) -> list[Element]:
-    t = _table(raw, "elements", faults)
-    if not t and "elements" not in faults.items:
+    if not isinstance(raw, dict):
+        _table(raw, "elements", faults)
+        return []
+    t = raw
+    if not t:
         faults.add("elements", "the circuit has no elements")
     out: list[Element] = []
     allowed = frozenset(ELEMENT_KEYS)
@@ -1003,7 +1021,7 @@ def parse_project(source: bytes | str, path: str = "<input>") -> Project:
     report = _report(data.get("report"), faults)
     if faults.items:
         raise ProjectError(faults.items, path)
-    return Project(
+    project = Project(
         path=path,
         source=raw_bytes,
         sha256=hashlib.sha256(raw_bytes).hexdigest(),
@@ -1018,6 +1036,29 @@ def parse_project(source: bytes | str, path: str = "<input>") -> Project:
         sweeps=tuple(sweeps),
         report=report,
     )
+    _check_case_values(project, faults)
+    if faults.items:
+        raise ProjectError(faults.items, path)
+    return project
+
+
+def _check_case_values(project: Project, faults: _Faults) -> None:
+    """Every case must give every element a finite, computable value."""
+    from calcdoc.model.values import element_values
+
+    for i, case in enumerate(project.cases):
+        if not case.settings:
+            continue
+        path = f"cases[{i}].set"
+        try:
+            values = element_values(project, case)
+        except ExpressionError as exc:
+            faults.add(path, f"with these settings an element value cannot be computed: {exc}")
+            continue
+        for e in project.elements:
+            _representable(
+                Quantity(values[e.name], e.kind.dimension), f"{path} (elements.{e.name})", faults
+            )
 
 
 def read_project(path: str | Path, *, reader: Callable[[Path], bytes] | None = None) -> Project:
