@@ -145,7 +145,7 @@ def solve(net: Netlist, *, keep_equations: bool | None = None) -> Solution:
         A = np.zeros((n, n))
         np.add.at(A, (rows, cols), vals)
         cond = float(np.linalg.cond(A))
-        if not np.isfinite(cond) or cond > 1e15:
+        if not np.isfinite(cond) or cond > 1e17:
             raise _singular(_null_unknowns(A, names))
         x = np.linalg.solve(A, z)
         residual = float(np.max(np.abs(A @ x - z))) if n else 0.0

@@ -220,3 +220,16 @@ def test_formulation_lists_every_equation(make_project):
     eqs = formulation(r.netlist).equations
     assert [e.title for e in eqs] == ["KCL at node in", "KCL at node out", "Branch equation of V1"]
     assert eqs[2].text(r.values) == "V(in) = 10"
+
+
+def test_ill_conditioned_system_is_warned(make_project):
+    # 1 mΩ against 100 GΩ: the conductances differ by 1e14, so the MNA
+    # matrix is ill-conditioned; the solution is still exact, with a warning.
+    r = nominal(make_project, [
+        ("V1", "voltage_source", ("a", "gnd"), "1 V"),
+        ("R1", "resistor", ("a", "b"), "1 mohm"),
+        ("R2", "resistor", ("b", "gnd"), "100 Gohm"),
+    ])  # fmt: skip
+    assert r.solution.condition > 1e12
+    assert any("ill-conditioned" in w for w in r.solution.warnings)
+    assert r.branches.exact_current[1] == Fraction(1, 100 * 10**9 + Fraction(1, 1000))
