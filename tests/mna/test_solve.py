@@ -223,13 +223,17 @@ def test_formulation_lists_every_equation(make_project):
 
 
 def test_ill_conditioned_system_is_warned(make_project):
-    # 1 mΩ against 100 GΩ: the conductances differ by 1e14, so the MNA
-    # matrix is ill-conditioned; the solution is still exact, with a warning.
+    # Two nodes joined by 1 mΩ, each with 100 GΩ to ground: the nodal
+    # conductance matrix has eigenvalues about 2e3 and 2e-11 S, so its
+    # condition number is about 1e14 (linear algebra, common practice).
     r = nominal(make_project, [
-        ("V1", "voltage_source", ("a", "gnd"), "1 V"),
+        ("I1", "current_source", ("gnd", "a"), "1 nA"),
         ("R1", "resistor", ("a", "b"), "1 mohm"),
         ("R2", "resistor", ("b", "gnd"), "100 Gohm"),
+        ("R3", "resistor", ("a", "gnd"), "100 Gohm"),
     ])  # fmt: skip
     assert r.solution.condition > 1e12
     assert any("ill-conditioned" in w for w in r.solution.warnings)
-    assert r.branches.exact_current[1] == Fraction(1, 100 * 10**9 + Fraction(1, 1000))
+    # exact arithmetic still gives the exact answer: 1 nA into (R3 || (R1 + R2))
+    r3, r12 = Fraction(10**11), Fraction(10**11) + Fraction(1, 1000)
+    assert r.branches.exact_node_voltage[1] == Fraction(1, 10**9) * r3 * r12 / (r3 + r12)
