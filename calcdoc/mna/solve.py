@@ -51,6 +51,8 @@ class Solution:
     warnings : tuple of str
     formulation : Formulation or None
         The symbolic equations, when the system is small enough to keep them.
+    matrix : (numpy.ndarray, numpy.ndarray) or None
+        The dense A and z that were solved (float64), up to DENSE_LIMIT unknowns.
     """
 
     unknowns: tuple[str, ...]
@@ -61,6 +63,7 @@ class Solution:
     condition: float
     warnings: tuple[str, ...]
     formulation: Formulation | None
+    matrix: tuple[np.ndarray, np.ndarray] | None = None
 
 
 def _exact_solve(A: list[list[Fraction]], z: list[Fraction]) -> list[Fraction] | int:
@@ -140,6 +143,7 @@ def solve(net: Netlist, *, keep_equations: bool | None = None) -> Solution:
         cond = float(np.linalg.cond(Af))
         residual = 0.0
         method, exact = "exact rational", tuple(got)
+        dense = (Af, np.array([float(v) for v in zq]))
     elif n <= DENSE_LIMIT:
         rows, cols, vals, z = stamps(net)
         A = np.zeros((n, n))
@@ -150,15 +154,17 @@ def solve(net: Netlist, *, keep_equations: bool | None = None) -> Solution:
         x = np.linalg.solve(A, z)
         residual = float(np.max(np.abs(A @ x - z))) if n else 0.0
         method, exact = "dense LU", None
+        dense = (A, z)
     else:
         x, residual, cond = _sparse_solve(net, names)
         method, exact = "sparse LU", None
+        dense = None
     if cond > ILL_CONDITIONED:
         warnings.append(
             f"the system is ill-conditioned (condition number {cond:.3g}); "
             "results may carry large rounding errors"
         )
-    return Solution(names, x, exact, method, residual, cond, tuple(warnings), form)
+    return Solution(names, x, exact, method, residual, cond, tuple(warnings), form, dense)
 
 
 def _sparse_solve(net: Netlist, names: tuple[str, ...]) -> tuple[np.ndarray, float, float]:
