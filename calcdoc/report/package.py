@@ -39,6 +39,7 @@ from reportlab.platypus.tableofcontents import TableOfContents
 
 from calcdoc import __version__
 from calcdoc.format import UNITS, eng, percent, value_text
+from calcdoc.model.expressions import Literal
 from calcdoc.report.diagram import DiagramPart, circuit_drawing, connection_rows
 from calcdoc.report.equations import equation_pieces, tex_unknown
 from calcdoc.report.fonts import register_fonts
@@ -552,7 +553,7 @@ def _section_inputs(ctx: _Ctx) -> list[Flowable]:
         elif e.control_element:
             ctrl = f"\ncontrol I({e.control_element})"
         val = value_text(e.type, float(e.value), ctx.sig)
-        expr = e.value_text if e.value_text.strip() != val else ""
+        expr = "" if isinstance(e.value_expr, Literal) else e.value_text
         tol = "—"
         if e.tolerance:
             t = e.tolerance
@@ -564,7 +565,7 @@ def _section_inputs(ctx: _Ctx) -> list[Flowable]:
         rows.append((e.name, e.kind.plain_name + ctrl, f"{e.nodes[0]} → {e.nodes[1]}",
                      val + (f"\n= {expr}" if expr else ""), tol, _rating_text(e), e.description or ""))  # fmt: skip
     out.append(_table(ctx, ["Element", "Type", "Nodes a → b", "Value", "Tolerance", "Rating", "Description"],
-                      rows, [0.8, 1.5, 1.1, 1.3, 0.8, 1.1, 2.2]))  # fmt: skip
+                      rows, [0.8, 1.5, 1.1, 1.3, 0.95, 1.1, 2.1]))  # fmt: skip
     if p.parameters:
         out.append(_h(ctx, "2.2  Parameters", 1))
         rows = []
@@ -650,7 +651,8 @@ def _section_diagram(ctx: _Ctx) -> list[Flowable]:
     nominal = r.cases[0]
     levels = dict(zip(nominal.netlist.nodes, nominal.branches.node_voltage.tolist(), strict=True))
     parts = _diagram_parts(p)
-    out: list[Flowable] = [_h(ctx, "3  Circuit diagram")]
+    head: list[Flowable] = [_h(ctx, "3  Circuit diagram")]
+    out: list[Flowable] = []
     drawing = circuit_drawing(
         parts,
         p.reference,
@@ -660,11 +662,13 @@ def _section_diagram(ctx: _Ctx) -> list[Flowable]:
         levels=levels,
     )
     if drawing is not None:
-        out.append(_p(_t(f"Drawn from the project file: each node is a horizontal line (the reference {p.reference!r} at the "
-                         "bottom), each element a vertical branch between its two nodes; a branch crossing a node line "
-                         "it does not join is drawn through a gap; dots mark junctions."), ctx, "small"))  # fmt: skip
-        out.append(drawing)
+        head.append(_p(_t(f"Drawn from the project file: each node is a horizontal line (the reference {p.reference!r} "
+                          "at the bottom, higher potentials above), each element a vertical branch between its two "
+                          "nodes; a branch crossing a node line it does not join is drawn through a gap; dots mark "
+                          "junctions."), ctx, "small"))  # fmt: skip
+        out.append(KeepTogether([*head, drawing]))
     else:
+        out += head
         out.append(_p(_t(f"The circuit has {len(parts)} elements, too many for a readable drawing; "
                          "its connections are listed instead."), ctx))  # fmt: skip
     out.append(_h(ctx, "3.1  Connections", 1))
@@ -938,7 +942,7 @@ def _section_checks(ctx: _Ctx) -> list[Flowable]:
             rows.append((ch.id, _num(ctx, ch.value, unit), f"{rel} {_num(ctx, ch.limit, unit)}", percent(ch.utilization),
                          _num(ctx, ch.margin, unit), status, ch.basis))  # fmt: skip
         out.append(_table(ctx, ["Check", "Value", "Limit", "Utilisation", "Margin", "Status", "Limit basis"], rows,
-                          [1.4, 1, 1.1, 0.8, 1, 0.6, 2.6], fail_rows=fails))  # fmt: skip
+                          [1.4, 1, 1.1, 1.0, 1, 0.6, 2.4], fail_rows=fails))  # fmt: skip
         n_fail = len(fails)
         msg = (
             f"{len(c.checks)} checks: all pass."
