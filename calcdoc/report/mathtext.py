@@ -97,7 +97,9 @@ class MathLines(Flowable):
         lines: list[_Line] = []
         cur: list[str] = []
         indent = 0.0
-        for piece in self.pieces:
+        whole = " ".join(self.pieces)
+        pieces = self.pieces if width_of(f"${whole}$", self.size) > avail_w else [whole]
+        for piece in pieces:
             trial = " ".join([*cur, piece])
             if cur and width_of(f"${trial}$", self.size) + indent > avail_w:
                 lines.append(_Line(" ".join(cur), indent))

@@ -203,14 +203,25 @@ def _table(ctx: _Ctx, header: Sequence[str], rows: Sequence[Sequence[Any]], widt
     """A table whose header row repeats on every sheet it spans."""
     cell = ctx.styles["cell"]
 
-    def wrap(v: Any) -> Any:
-        return v if isinstance(v, Flowable) else Paragraph(_t(v), cell)
-
-    data = [[Paragraph(f"<b>{_t(h)}</b>", cell) for h in header]]
-    data += [[wrap(v) for v in row] for row in rows]
     if widths is not None:
         total = sum(widths)
         widths = [w * ctx.width / total for w in widths]
+    size = ctx.style.font_size * 0.85
+    font = ctx.fonts.regular
+    from reportlab.pdfbase.pdfmetrics import stringWidth
+
+    def wrap(v: Any, k: int) -> Any:
+        # plain strings are much faster to lay out than paragraphs; wrap only what does not fit
+        if isinstance(v, Flowable):
+            return v
+        text = str(v)
+        room = (widths[k] if widths else ctx.width / len(header)) - 6
+        if "\n" not in text and stringWidth(text, font, size) <= room:
+            return text
+        return Paragraph(_t(text).replace("\n", "<br/>"), cell)
+
+    data = [[Paragraph(f"<b>{_t(h)}</b>", cell) for h in header]]
+    data += [[wrap(v, k) for k, v in enumerate(row)] for row in rows]
     t = Table(data, colWidths=widths, repeatRows=1, hAlign="LEFT")
     shade = colors.HexColor(ctx.style.colours["shade"])
     cmds = [
@@ -500,23 +511,56 @@ def _cover(ctx: _Ctx) -> list[Flowable]:
 # ---------------------------------------------------------------- sections
 
 
+def _numbering(ctx: _Ctx, major: int) -> Callable[[str], Flowable]:
+    """Sub-headings numbered in the order they appear (optional ones leave no gaps)."""
+    n = 0
+
+    def sub(title: str) -> Flowable:
+        nonlocal n
+        n += 1
+        return _h(ctx, f"{major}.{n}  {title}", 1)
+
+    return sub
+
+
+def _quantity_text(ctx: _Ctx, q) -> str:
+    """A parameter value with an SI unit (``21.00 mΩ/m``)."""
+    from calcdoc.model.quantities import METRE, NONE, SI_SYMBOL, dim_div, dim_mul
+
+    if q.dimension in SI_SYMBOL:
+        return eng(float(q.magnitude), SI_SYMBOL[q.dimension], ctx.sig)
+    for base, sym in SI_SYMBOL.items():
+        if base == NONE:
+            continue
+        for other, osym in SI_SYMBOL.items():
+            if other in (NONE, base):
+                continue
+            if dim_div(base, other) == q.dimension:
+                return eng(float(q.magnitude), f"{sym}/{osym}", ctx.sig)
+            if dim_mul(base, other) == q.dimension and other == METRE:
+                return eng(float(q.magnitude), f"{sym}·{osym}", ctx.sig)
+    return f"{float(q.magnitude):.{ctx.sig}g} (SI base units)"
+
+
 def _section_method(ctx: _Ctx) -> list[Flowable]:
     d = ctx.results.project.document
     out: list[Flowable] = [_h(ctx, "1  Purpose, scope and method")]
+    sub = _numbering(ctx, 1)
+
     if d.purpose:
-        out += [_h(ctx, "1.1  Purpose", 1), _p(_t(d.purpose), ctx)]
+        out += [sub("Purpose"), _p(_t(d.purpose), ctx)]
     if d.scope:
-        out += [_h(ctx, "1.2  Scope", 1), _p(_t(d.scope), ctx)]
+        out += [sub("Scope"), _p(_t(d.scope), ctx)]
     if d.assumptions:
-        out += [_h(ctx, "1.3  Assumptions", 1)]
+        out += [sub("Assumptions")]
         out += [_p("•&nbsp; " + _t(a), ctx) for a in d.assumptions]
     if d.references:
-        out += [_h(ctx, "1.4  References", 1)]
+        out += [sub("References")]
         out += [_p(f"[{i}]&nbsp; " + _t(a), ctx) for i, a in enumerate(d.references, 1)]
     from calcdoc.mna.solve import DENSE_LIMIT, EXACT_LIMIT
 
     out += [
-        _h(ctx, "1.5  Method", 1),
+        sub("Method"),
         _p(_t(METHOD.format(exact=EXACT_LIMIT)), ctx),
         _p(_t(CONVENTIONS), ctx),
     ]
@@ -526,7 +570,7 @@ def _section_method(ctx: _Ctx) -> list[Flowable]:
         f"equations; the matrix A·x = z is printed in full up to {MATRIX_INLINE_LIMIT} unknowns and as "
         "a listing of its non-zero entries beyond that. Numbers carry "
         f"{ctx.sig} significant figures and SI prefixes."), ctx))  # fmt: skip
-    out += [_h(ctx, "1.6  Cautions", 1)]
+    out += [sub("Cautions")]
     out += [_p("•&nbsp; " + _t(c), ctx, "caution") for c in CAUTIONS]
     return out
 
@@ -544,7 +588,8 @@ def _rating_text(e) -> str:
 
 def _section_inputs(ctx: _Ctx) -> list[Flowable]:
     p = ctx.results.project
-    out: list[Flowable] = [_h(ctx, "2  Design inputs"), _h(ctx, "2.1  Elements", 1)]
+    sub = _numbering(ctx, 2)
+    out: list[Flowable] = [_h(ctx, "2  Design inputs"), sub("Elements")]
     rows = []
     for e in p.elements:
         ctrl = ""
@@ -567,29 +612,15 @@ def _section_inputs(ctx: _Ctx) -> list[Flowable]:
     out.append(_table(ctx, ["Element", "Type", "Nodes a → b", "Value", "Tolerance", "Rating", "Description"],
                       rows, [0.8, 1.5, 1.1, 1.3, 0.95, 1.1, 2.1]))  # fmt: skip
     if p.parameters:
-        out.append(_h(ctx, "2.2  Parameters", 1))
+        out.append(sub("Parameters"))
         rows = []
         for q in p.parameters:
-            unit = {v: k for k, v in {}.items()}
-            from calcdoc.model.quantities import SI_SYMBOL
-
-            u = SI_SYMBOL.get(q.value.dimension, "")
-            rows.append(
-                (
-                    q.name,
-                    q.text,
-                    eng(float(q.value.magnitude), u, ctx.sig)
-                    if u or q.value.dimension == (0, 0, 0, 0, 0)
-                    else f"{float(q.value.magnitude):.{ctx.sig}g} (SI)",
-                    q.description,
-                )
-            )
-            del unit
+            rows.append((q.name, q.text, _quantity_text(ctx, q.value), q.description))
         out.append(
             _table(ctx, ["Parameter", "Given as", "Value", "Description"], rows, [1.2, 2, 1.3, 3])
         )
     lim = p.limits
-    out.append(_h(ctx, "2.3  Limits and design policy", 1))
+    out.append(sub("Limits and design policy"))
     rows = [
         ("Allowed share of rated power", percent(float(lim.power_fraction), 0)),
         ("Allowed share of rated voltage", percent(float(lim.voltage_fraction), 0)),
@@ -610,7 +641,7 @@ def _section_inputs(ctx: _Ctx) -> list[Flowable]:
         rows.append((f"Node {w.node} window", rng))
     out.append(_table(ctx, ["Limit", "Value"], rows, [2.5, 4]))
     if p.cases:
-        out.append(_h(ctx, "2.4  Operating cases", 1))
+        out.append(sub("Operating cases"))
         rows = [("nominal", "values as in 2.1 and 2.2", "")]
         rows += [
             (c.name, ", ".join(f"{s.target} = {s.text}" for s in c.settings) or "—", c.description)
@@ -619,7 +650,7 @@ def _section_inputs(ctx: _Ctx) -> list[Flowable]:
         out.append(_table(ctx, ["Case", "Changes from nominal", "Description"], rows, [1.3, 3, 3]))
     a = p.analysis
     if a.tolerance != "none" or a.temperature is not None:
-        out.append(_h(ctx, "2.5  Analysis settings", 1))
+        out.append(sub("Analysis settings"))
         rows = [("Tolerance analysis", a.tolerance)]
         if a.tolerance == "montecarlo":
             rows += [
