@@ -27,11 +27,16 @@ def outline(tex: str, size: float = MATH_SIZE) -> tuple[tuple, float, float, flo
     from matplotlib.textpath import TextPath
 
     path = TextPath((0, 0), tex, size=size, prop=FontProperties(family="DejaVu Sans"))
-    ext = path.get_extents()
+    verts = path.vertices
+    if len(verts):  # the control-point box: a close, cheap bound of the outline
+        x1, y0, y1 = float(verts[:, 0].max()), float(verts[:, 1].min()), float(verts[:, 1].max())
+    else:
+        x1 = y0 = y1 = 0.0
     segs = tuple(
-        (tuple(float(v) for v in pts), int(code)) for pts, code in path.iter_segments(curves=True)
+        (tuple(round(float(v), 2) for v in pts), int(code))
+        for pts, code in path.iter_segments(curves=True)
     )
-    return segs, float(ext.x1), float(max(ext.y1, 0.0)), float(max(-ext.y0, 0.0))
+    return segs, x1, max(y1, 0.0), max(-y0, 0.0)
 
 
 def draw_outline(canv, segs, x: float, y: float) -> None:
@@ -94,20 +99,23 @@ class MathLines(Flowable):
         self.lines: list[_Line] = []
 
     def wrap(self, avail_w: float, avail_h: float):
-        lines: list[_Line] = []
-        cur: list[str] = []
-        indent = 0.0
         whole = " ".join(self.pieces)
-        pieces = self.pieces if width_of(f"${whole}$", self.size) > avail_w else [whole]
-        for piece in pieces:
-            trial = " ".join([*cur, piece])
-            if cur and width_of(f"${trial}$", self.size) + indent > avail_w:
+        if width_of(f"${whole}$", self.size) <= avail_w:
+            lines = [_Line(whole, 0.0)]
+        else:  # greedy fill by the widths of the pieces (each measured once, and cached)
+            lines = []
+            cur: list[str] = []
+            indent, used, gap = 0.0, 0.0, 0.3 * self.size
+            for piece in self.pieces:
+                w = width_of(f"${piece}$", self.size)
+                if cur and used + gap + w + indent > avail_w:
+                    lines.append(_Line(" ".join(cur), indent))
+                    cur, indent, used = [piece], 2.5 * self.size, w
+                else:
+                    used += (gap if cur else 0.0) + w
+                    cur.append(piece)
+            if cur:
                 lines.append(_Line(" ".join(cur), indent))
-                cur, indent = [piece], 2.5 * self.size
-            else:
-                cur.append(piece)
-        if cur:
-            lines.append(_Line(" ".join(cur), indent))
         self.lines = lines
         self.heights = [outline(f"${ln.tex}$", self.size)[2:] for ln in lines]
         self.width = avail_w
