@@ -1,0 +1,133 @@
+"""Parameter sweeps: outputs over a range of one value, and where a limit is crossed.
+
+Each point is a full solution (batched).  Where an output's design limit
+(its rating check or node window in the nominal case) is crossed between
+two points, the crossing is located by Brent's method on the solved
+circuit (scipy.optimize.brentq), giving the design margin in component
+terms: "R4 may rise to 372.1 Ω before V(out) exceeds 4.5 V".
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from calcdoc.analysis.batch import patterns, solve_batch
+from calcdoc.model.load import parse_output
+from calcdoc.model.quantities import Quantity
+from calcdoc.model.values import element_values
+
+
+@dataclass(frozen=True)
+class Crossing:
+    output: str
+    check: str
+    limit: float
+    at: float  # target value at the crossing (SI)
+    direction: str  # "rising" | "falling" (of the output through the limit)
+
+
+@dataclass(frozen=True)
+class SweepResult:
+    name: str
+    target: str
+    target_kind: str  # element type, or "parameter"
+    points: tuple[float, ...]
+    scale: str
+    series: dict[str, tuple[float, ...]]
+    limits: dict[
+        str, tuple[tuple[str, float], ...]
+    ]  # output -> (check id, limit) drawn on the plot
+    crossings: tuple[Crossing, ...]
+
+    def to_json(self) -> dict:
+        return {
+            "name": self.name, "target": self.target, "points": list(self.points), "scale": self.scale,
+            "outputs": {k: list(v) for k, v in self.series.items()},
+            "crossings": [{"output": c.output, "check": c.check, "limit": c.limit, "at": c.at,
+                           "direction": c.direction} for c in self.crossings],
+        }  # fmt: skip
+
+
+def _value_rows(project, sweep, pts: np.ndarray) -> np.ndarray:
+    names = [e.name for e in project.elements]
+    if sweep.target in names:
+        base = element_values(project)
+        rows = np.tile(np.array([float(base[n]) for n in names]), (len(pts), 1))
+        rows[:, names.index(sweep.target)] = pts
+        return rows
+    dim = next(p.value.dimension for p in project.parameters if p.name == sweep.target)
+    rows = []
+    for t in pts:
+        v = element_values(project, parameter_overrides={sweep.target: Quantity(float(t), dim)})
+        rows.append([float(v[n]) for n in names])
+    return np.array(rows)
+
+
+def _series(batch, net, output: str) -> np.ndarray:
+    subject, q = parse_output(output)
+    if q == "node":
+        return batch.node_voltage[:, net.nodes.index(subject)]
+    return getattr(batch, q)[:, net.names.index(subject)]
+
+
+def sweep_result(project, nominal, sweep) -> SweepResult:
+    """Solve the sweep of one ``[[sweeps]]`` entry around the nominal case."""
+    from scipy.optimize import brentq
+
+    net = nominal.netlist
+    pat = patterns(net)
+    a, b = float(sweep.start.magnitude), float(sweep.stop.magnitude)
+    pts = (
+        np.geomspace(a, b, sweep.points)
+        if sweep.scale == "log"
+        else np.linspace(a, b, sweep.points)
+    )
+    batch = solve_batch(pat, _value_rows(project, sweep, pts))
+    series, limits, crossings = {}, {}, []
+    for output in sweep.outputs:
+        y = _series(batch, net, output)
+        series[output] = tuple(y.tolist())
+        subject, q = parse_output(output)
+        rel = [
+            c
+            for c in nominal.checks
+            if c.subject == subject
+            and (c.quantity == q or (q == "node" and c.id.startswith("nodes.")))
+        ]
+        limits[output] = tuple((c.id, c.limit) for c in rel)
+        for c in rel:
+            mag = q != "node"
+
+            def g(t: float, c=c, mag=mag) -> float:
+                yy = _series(
+                    solve_batch(pat, _value_rows(project, sweep, np.array([t]))), net, output
+                )[0]
+                return (abs(yy) if mag else yy) - c.limit
+
+            vals = (np.abs(y) if mag else y) - c.limit
+            for k in np.flatnonzero(np.sign(vals[:-1]) * np.sign(vals[1:]) < 0):
+                t = brentq(g, pts[k], pts[k + 1], xtol=1e-12 * max(abs(pts[k]), 1e-30), rtol=1e-12)
+                crossings.append(
+                    Crossing(
+                        output,
+                        c.id,
+                        c.limit,
+                        float(t),
+                        "rising" if vals[k + 1] > vals[k] else "falling",
+                    )
+                )
+    kind = (
+        "parameter" if sweep.target not in net.names else net.types[net.names.index(sweep.target)]
+    )
+    return SweepResult(
+        sweep.name or f"{sweep.target} sweep",
+        sweep.target,
+        kind,
+        tuple(pts.tolist()),
+        sweep.scale,
+        series,
+        limits,
+        tuple(crossings),
+    )
