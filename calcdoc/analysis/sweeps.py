@@ -100,7 +100,7 @@ def sweep_result(project, nominal, sweep) -> SweepResult:
         for c in rel:
             mag = q != "node"
 
-            def g(t: float, c=c, mag=mag) -> float:
+            def g(t: float, c=c, mag=mag, output=output) -> float:
                 yy = _series(
                     solve_batch(pat, _value_rows(project, sweep, np.array([t]))), net, output
                 )[0]

@@ -234,7 +234,6 @@ def _rss(case_result, quantities, nominal: Batch, outs_d, lo, hi, h, note) -> To
     nom = _outputs(nominal)
     nodes: dict[str, Extreme] = {}
     elements: dict[str, dict[str, Extreme]] = {}
-    columns = {"node": nominal.node_voltage, **{k: getattr(nominal, k) for k in QUANTITIES}}
     worst_rows = []
     for key, arr in outs_d.items():
         slope = (arr[:q] - arr[q:]) / (2 * h)  # dy per unit relative deviation
@@ -250,7 +249,6 @@ def _rss(case_result, quantities, nominal: Batch, outs_d, lo, hi, h, note) -> To
         else:
             elements.setdefault(net.names[idx], {})[kind] = ex
         worst_rows.append((key, ex))
-    del columns
     # checks at the RSS extremes: a pseudo-batch of the min and max of every output
     K = 2
     nv = np.tile(nominal.node_voltage, (K, 1))
@@ -258,8 +256,6 @@ def _rss(case_result, quantities, nominal: Batch, outs_d, lo, hi, h, note) -> To
     arrays = {"node": nv, "voltage": bv, "current": bi, "power": bp}
     for (kind, idx), ex in worst_rows:
         arrays[kind][0, idx], arrays[kind][1, idx] = ex.min, ex.max
-    for kind in QUANTITIES:  # magnitudes: the larger of |min|, |max|
-        pass
     batch = Batch(nv, bv, bi, bp, np.zeros((K, 0)))
     checks = _worst_checks(case_result.checks, net, batch, "the RSS band")
     return ToleranceResult(
