@@ -150,7 +150,13 @@ def sensitivities(project, case_result, outputs=None, closed=None) -> tuple[Sens
         for pname, (base, d) in dpar.items():
             g = float(dydv @ d)
             items.append((pname, "parameter", float(g * base / y) if y else float("nan"), g))
-        items = [it for it in items if it[3] != 0.0]
+        big = max((abs(it[2]) for it in items if np.isfinite(it[2])), default=0.0)
+        # a dependence below 1e-9 of the largest is rounding in the parameter derivatives, not a sensitivity
+        items = [
+            it
+            for it in items
+            if it[3] != 0.0 and not (np.isfinite(it[2]) and abs(it[2]) < 1e-9 * big)
+        ]
         items.sort(key=lambda t: -abs(t[2]) if np.isfinite(t[2]) else 0.0)
         out.append(
             Sensitivity(

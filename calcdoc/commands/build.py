@@ -15,7 +15,9 @@ def run(args, term) -> int:
     if args.sign or args.previous:
         raise CalcdocError("--sign and --previous are not available yet")
     project = calcdoc.load(args.file)
-    results = calcdoc.solve(project)
+    from calcdoc.analysis.pipeline import analyse
+
+    results = analyse(project, closed_form=True)
     show = None if args.quiet else term.progress
     package = build_package(results, progress=show)
     term.progress_done()

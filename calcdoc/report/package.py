@@ -105,6 +105,7 @@ class _Ctx:
     width: float
     sigbox: dict[str, Any]
     base_dir: Path
+    major: int = 0
 
 
 # ---------------------------------------------------------------- helpers
@@ -511,8 +512,15 @@ def _cover(ctx: _Ctx) -> list[Flowable]:
 # ---------------------------------------------------------------- sections
 
 
-def _numbering(ctx: _Ctx, major: int) -> Callable[[str], Flowable]:
-    """Sub-headings numbered in the order they appear (optional ones leave no gaps)."""
+def _section(ctx: _Ctx, title: str) -> Flowable:
+    """A numbered top-level heading (sections are numbered in the order they appear)."""
+    ctx.major += 1
+    return _h(ctx, f"{ctx.major}  {title}")
+
+
+def _numbering(ctx: _Ctx) -> Callable[[str], Flowable]:
+    """Sub-headings of the current section, numbered without gaps."""
+    major = ctx.major
     n = 0
 
     def sub(title: str) -> Flowable:
@@ -544,8 +552,8 @@ def _quantity_text(ctx: _Ctx, q) -> str:
 
 def _section_method(ctx: _Ctx) -> list[Flowable]:
     d = ctx.results.project.document
-    out: list[Flowable] = [_h(ctx, "1  Purpose, scope and method")]
-    sub = _numbering(ctx, 1)
+    out: list[Flowable] = [_section(ctx, "Purpose, scope and method")]
+    sub = _numbering(ctx)
 
     if d.purpose:
         out += [sub("Purpose"), _p(_t(d.purpose), ctx)]
@@ -588,8 +596,9 @@ def _rating_text(e) -> str:
 
 def _section_inputs(ctx: _Ctx) -> list[Flowable]:
     p = ctx.results.project
-    sub = _numbering(ctx, 2)
-    out: list[Flowable] = [_h(ctx, "2  Design inputs"), sub("Elements")]
+    out: list[Flowable] = [_section(ctx, "Design inputs")]
+    sub = _numbering(ctx)
+    out.append(sub("Elements"))
     rows = []
     for e in p.elements:
         ctrl = ""
@@ -682,7 +691,8 @@ def _section_diagram(ctx: _Ctx) -> list[Flowable]:
     nominal = r.cases[0]
     levels = dict(zip(nominal.netlist.nodes, nominal.branches.node_voltage.tolist(), strict=True))
     parts = _diagram_parts(p)
-    head: list[Flowable] = [_h(ctx, "3  Circuit diagram")]
+    head: list[Flowable] = [_section(ctx, "Circuit diagram")]
+    sub = _numbering(ctx)
     out: list[Flowable] = []
     drawing = circuit_drawing(
         parts,
@@ -702,7 +712,7 @@ def _section_diagram(ctx: _Ctx) -> list[Flowable]:
         out += head
         out.append(_p(_t(f"The circuit has {len(parts)} elements, too many for a readable drawing; "
                          "its connections are listed instead."), ctx))  # fmt: skip
-    out.append(_h(ctx, "3.1  Connections", 1))
+    out.append(sub("Connections"))
     out.append(_table(ctx, ["Node", "Elements joined (terminal)"], connection_rows(parts), [1, 6]))
     return out
 
@@ -727,11 +737,12 @@ def _section_formulation(ctx: _Ctx) -> tuple[list[Flowable], list[Flowable]]:
     r = ctx.results
     case = r.cases[0]
     sol = case.solution
-    out: list[Flowable] = [_h(ctx, "4  Formulation (nominal case)")]
+    out: list[Flowable] = [_section(ctx, "Formulation (nominal case)")]
+    sub = _numbering(ctx)
     appendix: list[Flowable] = []
     names, types = case.netlist.names, case.netlist.types
     kinds = dict(zip(names, types, strict=True))
-    out.append(_h(ctx, "4.1  Unknowns", 1))
+    out.append(sub("Unknowns"))
     rows = []
     for i, u in enumerate(sol.unknowns, 1):
         inner = u[2:-1]
@@ -747,7 +758,7 @@ def _section_formulation(ctx: _Ctx) -> tuple[list[Flowable], list[Flowable]]:
                          "and is not printed equation by equation. KCL is written at every node and each "
                          "voltage-defined element's law as described in section 1.5."), ctx))  # fmt: skip
         return out, appendix
-    out.append(_h(ctx, "4.2  Equations", 1))
+    out.append(sub("Equations"))
     out.append(_p(_t("Each equation in symbols (element names stand for their values), then with the values "
                      "substituted. KCL: the currents leaving a node through its elements sum to zero."), ctx, "small"))  # fmt: skip
     substitute = len(form.equations) <= SUBSTITUTE_LIMIT
@@ -765,7 +776,7 @@ def _section_formulation(ctx: _Ctx) -> tuple[list[Flowable], list[Flowable]]:
         out.append(KeepTogether(block))
     if sol.matrix is not None and "matrix" in ctx.style.sections:
         A, z = sol.matrix
-        out.append(_h(ctx, "4.3  Matrix form A·x = z", 1))
+        out.append(sub("Matrix form A·x = z"))
         out.append(_p(_t("Rows are the equations above in order; columns the unknowns x1 … xn of 4.1 "
                          "(SI units: S, dimensionless or Ω entries; z in A or V)."), ctx, "small"))  # fmt: skip
         if len(sol.unknowns) <= MATRIX_INLINE_LIMIT:
@@ -792,7 +803,7 @@ def _section_formulation(ctx: _Ctx) -> tuple[list[Flowable], list[Flowable]]:
                          _table(ctx, ["Row", "Column", "Value"], rows, [1, 1, 2])]  # fmt: skip
     cf = ctx.results.extra.get("closed_form")
     if cf is not None and "closed_form" in ctx.style.sections:
-        out.append(_h(ctx, "4.4  Closed-form solution", 1))
+        out.append(sub("Closed-form solution"))
         out.append(
             _p(
                 _t("Each unknown as an expression in the element values, for checking by hand."),
@@ -808,10 +819,11 @@ def _section_formulation(ctx: _Ctx) -> tuple[list[Flowable], list[Flowable]]:
 
 
 def _section_solution(ctx: _Ctx) -> list[Flowable]:
-    out: list[Flowable] = [_h(ctx, "5  Solution")]
+    out: list[Flowable] = [_section(ctx, "Solution")]
+    sub = _numbering(ctx)
     for k, c in enumerate(ctx.results.cases, 1):
         net, br, s = c.netlist, c.branches, c.solution
-        out.append(_h(ctx, f"5.{k}  Case: {c.name}", 1))
+        out.append(sub(f"Case: {c.name}"))
         out.append(_p(_t(f"{len(s.unknowns)} unknowns solved by {s.method}; residual ‖A·x − z‖∞ = {s.residual:.3g}; "
                          f"condition number {s.condition:.3g}."), ctx, "small"))  # fmt: skip
         for w in s.warnings:
@@ -888,10 +900,11 @@ class _LedgerChart(Flowable):
 
 
 def _section_verification(ctx: _Ctx) -> list[Flowable]:
-    out: list[Flowable] = [_h(ctx, "6  Verification")]
+    out: list[Flowable] = [_section(ctx, "Verification")]
+    sub = _numbering(ctx)
     for k, c in enumerate(ctx.results.cases, 1):
         net, br = c.netlist, c.branches
-        out.append(_h(ctx, f"6.{k}  Case: {c.name}", 1))
+        out.append(sub(f"Case: {c.name}"))
         out.append(_p("<b>KCL at each node</b> — currents leaving the node through each element (a current "
                       "entering counts negative); the sum must be zero.", ctx, "small"))  # fmt: skip
         leaving: dict[int, list[str]] = {}
@@ -950,13 +963,14 @@ def _section_verification(ctx: _Ctx) -> list[Flowable]:
 
 
 def _section_checks(ctx: _Ctx) -> list[Flowable]:
-    out: list[Flowable] = [_h(ctx, "7  Design checks")]
+    out: list[Flowable] = [_section(ctx, "Design checks")]
+    sub = _numbering(ctx)
     r = ctx.results
     out.append(_p(_t("Each rating and limit against the result: utilisation = value / limit (for a minimum, "
                      "limit / value); margin = how far the value is inside the limit. A negative margin fails."), ctx, "small"))  # fmt: skip
     fail = ctx.style.colours["fail"]
     for k, c in enumerate(r.cases, 1):
-        out.append(_h(ctx, f"7.{k}  Case: {c.name}", 1))
+        out.append(sub(f"Case: {c.name}"))
         if not c.checks:
             out.append(_p("No ratings or limits are given, so there is nothing to check.", ctx))
             continue
@@ -987,7 +1001,7 @@ def _section_checks(ctx: _Ctx) -> list[Flowable]:
 def _section_conclusion(ctx: _Ctx) -> list[Flowable]:
     r = ctx.results
     p = r.project
-    out: list[Flowable] = [_h(ctx, "8  Conclusion")]
+    out: list[Flowable] = [_section(ctx, "Conclusion")]
     failed, worst = r.failed, r.worst
     if not r.checks:
         out.append(
@@ -1170,12 +1184,17 @@ def build_package(
 
 
 def results_sections(results) -> list[SectionBuilder]:
-    """Sections contributed by analysis stages (each stage's ``report_sections()``)."""
+    """Sections for the analysis stages present in ``results.extra``, numbered 9, 10, ..."""
+    from calcdoc.report.analysis_sections import SECTIONS
+
     out: list[SectionBuilder] = []
-    for data in results.extra.values():
-        more = getattr(data, "report_sections", None)
-        if more is not None:
-            out.extend(more())
+    for build in SECTIONS:
+
+        def one(ctx: _Ctx, build=build) -> list[Flowable]:
+            return build(ctx, results)
+
+        one.__name__ = build.__name__
+        out.append(one)
     return out
 
 
