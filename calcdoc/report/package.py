@@ -821,7 +821,7 @@ def _section_formulation(ctx: _Ctx) -> tuple[list[Flowable], list[Flowable]]:
 def _section_solution(ctx: _Ctx) -> list[Flowable]:
     out: list[Flowable] = [_section(ctx, "Solution")]
     sub = _numbering(ctx)
-    for k, c in enumerate(ctx.results.cases, 1):
+    for c in ctx.results.cases:
         net, br, s = c.netlist, c.branches, c.solution
         out.append(sub(f"Case: {c.name}"))
         out.append(_p(_t(f"{len(s.unknowns)} unknowns solved by {s.method}; residual ‖A·x − z‖∞ = {s.residual:.3g}; "
@@ -902,7 +902,7 @@ class _LedgerChart(Flowable):
 def _section_verification(ctx: _Ctx) -> list[Flowable]:
     out: list[Flowable] = [_section(ctx, "Verification")]
     sub = _numbering(ctx)
-    for k, c in enumerate(ctx.results.cases, 1):
+    for c in ctx.results.cases:
         net, br = c.netlist, c.branches
         out.append(sub(f"Case: {c.name}"))
         out.append(_p("<b>KCL at each node</b> — currents leaving the node through each element (a current "
@@ -969,7 +969,7 @@ def _section_checks(ctx: _Ctx) -> list[Flowable]:
     out.append(_p(_t("Each rating and limit against the result: utilisation = value / limit (for a minimum, "
                      "limit / value); margin = how far the value is inside the limit. A negative margin fails."), ctx, "small"))  # fmt: skip
     fail = ctx.style.colours["fail"]
-    for k, c in enumerate(r.cases, 1):
+    for c in r.cases:
         out.append(sub(f"Case: {c.name}"))
         if not c.checks:
             out.append(_p("No ratings or limits are given, so there is nothing to check.", ctx))

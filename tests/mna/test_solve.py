@@ -152,7 +152,7 @@ def networks(draw):
 @settings(deadline=None, max_examples=60)
 @given(networks())
 def test_invariants_on_random_networks(els):
-    from conftest import project_text
+    from netlists import project_text
 
     r = calcdoc.solve(calcdoc.loads(project_text(els))).cases[0]
     br = r.branches
@@ -177,7 +177,7 @@ def test_invariants_on_random_networks(els):
 def test_reciprocity(els, i, j):
     # Reciprocity theorem for resistor networks: the transfer resistance from
     # a current injected at node i to the voltage at node j equals that from j to i.
-    from conftest import project_text
+    from netlists import project_text
 
     res = [e for e in els if e[1] == "resistor"]
     nodes = sorted({n for e in res for n in e[2]} - {"gnd"})

@@ -202,7 +202,7 @@ def test_unknown_template_is_an_input_error(tmp_path, capsys):
 
 
 def test_large_circuit_uses_connection_table():
-    from conftest import project_text
+    from netlists import project_text
 
     els = [("V1", "voltage_source", ("n0", "gnd"), "10 V")]
     for k in range(40):
