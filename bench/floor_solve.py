@@ -22,7 +22,7 @@ def main(path: str) -> None:
     idx = {ref: 0}
     rows, cols, vals = [], [], []
     z = {}
-    for name, e in data["elements"].items():
+    for e in data["elements"].values():
         a, b = (idx.setdefault(n, len(idx)) for n in e["nodes"])
         if e["type"] == "resistor":
             g = 1.0 / (float(e["value"].split()[0]) * 1000.0)
