@@ -23,8 +23,25 @@ import numpy as np
 from calcdoc.errors import SingularCircuitError
 from calcdoc.mna.netlist import Netlist, defines
 
+SMALL = 2000  # elements: below this, plain Python graph code (scipy takes ~0.3 s to import)
+
 
 def _components(n_nodes: int, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Connected-component label of every node."""
+    if len(a) <= SMALL:
+        parent = list(range(n_nodes))
+
+        def find(x: int) -> int:
+            while parent[x] != x:
+                parent[x] = parent[parent[x]]
+                x = parent[x]
+            return x
+
+        for u, v in zip(a.tolist(), b.tolist(), strict=True):
+            ru, rv = find(u), find(v)
+            if ru != rv:
+                parent[ru] = rv
+        return np.array([find(i) for i in range(n_nodes)])
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import connected_components
 

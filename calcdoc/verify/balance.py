@@ -73,17 +73,43 @@ class LoopCheck:
         return len(self.loops) if self.listed else len(self.chords)
 
 
+def _bfs(net: Netlist, n: int) -> tuple[np.ndarray, np.ndarray]:
+    """Breadth-first order from the reference and each node's predecessor (-9999 for none)."""
+    if len(net.a) > 2000:
+        from scipy.sparse import coo_matrix
+        from scipy.sparse.csgraph import breadth_first_order
+
+        g = coo_matrix((np.ones(len(net.a)), (net.a, net.b)), shape=(n, n)).tocsr()
+        return breadth_first_order(g, 0, directed=False, return_predecessors=True)
+    from collections import deque
+
+    adj: list[list[int]] = [[] for _ in range(n)]
+    for u, v in zip(net.a.tolist(), net.b.tolist(), strict=True):
+        adj[u].append(v)
+        adj[v].append(u)
+    pred = np.full(n, -9999, dtype=np.int64)
+    seen = [False] * n
+    seen[0] = True
+    order = [0]
+    q = deque([0])
+    while q:
+        x = q.popleft()
+        for y in sorted(set(adj[x])):
+            if not seen[y]:
+                seen[y] = True
+                pred[y] = x
+                order.append(y)
+                q.append(y)
+    return np.array(order, dtype=np.int64), pred
+
+
 def _tree(net: Netlist) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Breadth-first spanning tree from the reference.
 
     Returns parent node, parent element, depth, and BFS order (all arrays).
     """
-    from scipy.sparse import coo_matrix
-    from scipy.sparse.csgraph import breadth_first_order
-
     n = len(net.nodes)
-    g = coo_matrix((np.ones(len(net.a)), (net.a, net.b)), shape=(n, n)).tocsr()
-    order, pred = breadth_first_order(g, 0, directed=False, return_predecessors=True)
+    order, pred = _bfs(net, n)
     # the element joining each node to its parent: look the pair up among
     # the elements' sorted node-pair keys (first element of a parallel group)
     lo, hi = np.minimum(net.a, net.b), np.maximum(net.a, net.b)
