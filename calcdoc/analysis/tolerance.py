@@ -60,8 +60,11 @@ class ToleranceResult:
     histogram: tuple[str, tuple[float, ...], tuple[int, ...]] | None = None
 
     def to_json(self) -> dict:
+        names = [q.name for q in self.quantities]
+
         def rng(x: Extreme) -> dict:
-            d = {"min": x.min, "max": x.max, "nominal": x.nominal}
+            d = {"min": x.min, "max": x.max, "nominal": x.nominal,
+                 "min_at": dict(zip(names, x.min_at, strict=True)), "max_at": dict(zip(names, x.max_at, strict=True))}  # fmt: skip
             if x.mean is not None:
                 d.update(mean=x.mean, std=x.std, p01=x.p01, p99=x.p99)
             return d

@@ -191,9 +191,10 @@ def test_tolerance_json_shape():
     doc = calcdoc.to_json(calcdoc.solve(divider()))
     tol = doc["cases"][0]["tolerance"]
     assert tol["method"] == "extreme"
-    assert set(tol["nodes"]["out"]) >= {"min", "max"}
+    assert set(tol["nodes"]["out"]) >= {"min", "max", "min_at", "max_at"}
+    assert tol["nodes"]["out"]["min_at"] == {"R1": 0.01, "R2": -0.01}
     assert set(tol["elements"]["R1"]) == {"power", "voltage", "current"}
-    assert all(type(v) is float for v in tol["elements"]["R1"]["power"].values())
+    assert all(type(v) is float for k, v in tol["elements"]["R1"]["power"].items() if not k.endswith("_at"))
 
 
 def test_cases_envelope_names_the_worst_case():
