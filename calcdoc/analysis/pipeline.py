@@ -46,20 +46,23 @@ def analyse(project: Project, *, closed_form: bool = False) -> Results:
     extra: dict = {}
     nominal = results.cases[0]
     closed = None
-    if closed_form or project.analysis.sensitivity:
+    a = project.analysis
+    wants_sensitivity = bool(a.sensitivity) or a.tolerance != "none"
+    # the closed form is derived whenever sensitivities are, so that every command
+    # (and a later re-solve by `calcdoc verify`) gets the same results
+    if closed_form or wants_sensitivity:
         from calcdoc.mna.symbolic import closed_form as derive_closed
 
         closed = derive_closed(nominal.solution.formulation, nominal.values)
         if closed is not None and closed_form:
             extra["closed_form"] = closed
-    a = project.analysis
     if a.tolerance != "none":
         per_case = tuple(tolerance_result(project, c) for c in results.cases)
         if any(per_case):
             extra["tolerance"] = ToleranceStage(per_case)
     if len(results.cases) > 1:
         extra["envelope"] = EnvelopeStage(envelope(results.cases))
-    if a.sensitivity or a.tolerance != "none":
+    if wants_sensitivity:
         outs = a.sensitivity or default_outputs(project, nominal)
         extra["sensitivity"] = SensitivityStage(
             "nominal", sensitivities(project, nominal, outs, closed)

@@ -1,7 +1,10 @@
-"""``calcdoc build FILE [-o OUT.pdf]``: write the PDF calculation package."""
+"""``calcdoc build FILE [-o OUT.pdf] [--previous OLD] [--sign KEY.p12]``: write the package."""
 
 from __future__ import annotations
 
+import getpass
+import os
+import sys
 from pathlib import Path
 
 import calcdoc
@@ -10,18 +13,56 @@ from calcdoc.fileio import write_atomic
 
 
 def run(args, term) -> int:
+    from calcdoc.analysis.pipeline import analyse
     from calcdoc.report.package import build_package, default_output
 
-    if args.sign or args.previous:
-        raise CalcdocError("--sign and --previous are not available yet")
-    project = calcdoc.load(args.file)
-    from calcdoc.analysis.pipeline import analyse
-
-    results = analyse(project, closed_form=True)
     show = None if args.quiet else term.progress
-    package = build_package(results, progress=show)
+    project = calcdoc.load(args.file)
+    results = analyse(project, closed_form=True)
+    comparison = _previous(args.previous, results, term) if args.previous else None
+    package = build_package(results, previous=comparison, progress=show)
+    pdf = package.pdf
+    if args.sign:
+        pdf = _sign(pdf, package.signature_box, Path(args.sign), project, show)
     term.progress_done()
     out = Path(args.output) if args.output else default_output(project, Path(args.file))
-    write_atomic(out, package.pdf)
-    term.line(f"wrote {out} ({len(package.pdf)} bytes)")
+    write_atomic(out, pdf)
+    term.line(f"wrote {out} ({len(pdf)} bytes)")
     return 0
+
+
+def _previous(path: str, results, term):
+    """Compare with an earlier revision (a package or a project file)."""
+    from calcdoc.analysis.pipeline import analyse
+    from calcdoc.record.compare import compare
+    from calcdoc.record.package import baseline
+
+    old = analyse(baseline(path))
+    comparison = compare(old, results)
+    new_rev = results.project.document.revision
+    inputs_changed = any(c.section != "input file" for c in comparison.inputs)
+    if inputs_changed and comparison.old_revision == new_rev:
+        term.warning(
+            f"the inputs changed since {path} but the revision is still {new_rev!r}: "
+            "raise document.revision and add a document.history entry"
+        )
+    return comparison
+
+
+def _sign(pdf: bytes, box, key: Path, project, progress) -> bytes:
+    from calcdoc.record.signing import SigningError, key_password, sign_package
+    from calcdoc.report.fonts import register_fonts
+
+    if progress:
+        progress("signing")
+    try:
+        password = key_password(os.environ, interactive=sys.stdin.isatty(), prompt=getpass.getpass)
+        d = project.document
+        who = project.signoff.approved or project.signoff.checked or project.signoff.prepared
+        return sign_package(
+            pdf, key, password, page=box[0], box=box[1], signer_label=who.name if who else "",
+            font_path=register_fonts().regular_path,
+            reason=f"Calculation record {d.number} revision {d.revision}".strip(),
+        )  # fmt: skip
+    except SigningError as exc:
+        raise CalcdocError(f"{key}: cannot sign: {exc}") from None

@@ -106,6 +106,13 @@ class _Ctx:
     sigbox: dict[str, Any]
     base_dir: Path
     major: int = 0
+    previous: Any = None  # a record Comparison with the earlier revision
+
+    def marks(self, keys: Sequence[str]) -> list[bool]:
+        """Which rows changed since the previous revision (by key path)."""
+        if self.previous is None:
+            return [False] * len(keys)
+        return [self.previous.touches(k) for k in keys]
 
 
 # ---------------------------------------------------------------- helpers
@@ -200,7 +207,8 @@ def _h(ctx: _Ctx, text: str, level: int = 0) -> Flowable:
 
 
 def _table(ctx: _Ctx, header: Sequence[str], rows: Sequence[Sequence[Any]], widths: Sequence[float] | None = None,
-           *, align_right: Sequence[int] = (), fail_rows: Sequence[int] = (), bold_rows: Sequence[int] = ()) -> Table:  # fmt: skip
+           *, align_right: Sequence[int] = (), fail_rows: Sequence[int] = (), bold_rows: Sequence[int] = (),
+           marks: Sequence[bool] = ()) -> Table:  # fmt: skip
     """A table whose header row repeats on every sheet it spans."""
     cell = ctx.styles["cell"]
 
@@ -223,7 +231,14 @@ def _table(ctx: _Ctx, header: Sequence[str], rows: Sequence[Sequence[Any]], widt
 
     data = [[Paragraph(f"<b>{_t(h)}</b>", cell) for h in header]]
     data += [[wrap(v, k) for k, v in enumerate(row)] for row in rows]
-    t = Table(data, colWidths=widths, repeatRows=1, hAlign="LEFT")
+    if any(marks):
+        from calcdoc.report.changes import MarkedTable
+
+        rev = ctx.results.project.document.revision
+        t = MarkedTable(data, colWidths=widths, repeatRows=1, hAlign="LEFT", marks=marks, mark_text=rev,
+                        mark_colour=ctx.style.colours["mark"])  # fmt: skip
+    else:
+        t = Table(data, colWidths=widths, repeatRows=1, hAlign="LEFT")
     shade = colors.HexColor(ctx.style.colours["shade"])
     cmds = [
         ("FONT", (0, 0), (-1, -1), ctx.fonts.regular, ctx.style.font_size * 0.85),
@@ -364,7 +379,7 @@ class _SignoffBlock(Flowable):
         self.ctx = ctx
 
     def wrap(self, aw: float, ah: float):
-        self.width, self.height = aw, 112
+        self.width, self.height = aw, 142
         return self.width, self.height
 
     def draw(self) -> None:
@@ -619,14 +634,21 @@ def _section_inputs(ctx: _Ctx) -> list[Flowable]:
         rows.append((e.name, e.kind.plain_name + ctrl, f"{e.nodes[0]} → {e.nodes[1]}",
                      val + (f"\n= {expr}" if expr else ""), tol, _rating_text(e), e.description or ""))  # fmt: skip
     out.append(_table(ctx, ["Element", "Type", "Nodes a → b", "Value", "Tolerance", "Rating", "Description"],
-                      rows, [0.8, 1.5, 1.1, 1.3, 0.95, 1.1, 2.1]))  # fmt: skip
+                      rows, [0.8, 1.5, 1.1, 1.3, 0.95, 1.1, 2.1],
+                      marks=ctx.marks([f"elements.{e.name}" for e in p.elements])))  # fmt: skip
     if p.parameters:
         out.append(sub("Parameters"))
         rows = []
         for q in p.parameters:
             rows.append((q.name, q.text, _quantity_text(ctx, q.value), q.description))
         out.append(
-            _table(ctx, ["Parameter", "Given as", "Value", "Description"], rows, [1.2, 2, 1.3, 3])
+            _table(
+                ctx,
+                ["Parameter", "Given as", "Value", "Description"],
+                rows,
+                [1.2, 2, 1.3, 3],
+                marks=ctx.marks([f"parameters.{q.name}" for q in p.parameters]),
+            )  # fmt: skip
         )
     lim = p.limits
     out.append(sub("Limits and design policy"))
@@ -837,7 +859,8 @@ def _section_solution(ctx: _Ctx) -> list[Flowable]:
         rows = [
             (n, _num(ctx, v, "V")) for n, v in zip(net.nodes, br.node_voltage.tolist(), strict=True)
         ]
-        out.append(_table(ctx, ["Node", "Voltage from reference"], rows[:ROW_LIMIT], [2, 2]))
+        out.append(_table(ctx, ["Node", "Voltage from reference"], rows[:ROW_LIMIT], [2, 2],
+                          marks=ctx.marks([f"results.{c.name}.nodes.{n}" for n in net.nodes[:ROW_LIMIT]])))  # fmt: skip
         out.append(Spacer(1, 4))
         rows = [(name, f"{net.nodes[int(net.a[j])]} → {net.nodes[int(net.b[j])]}", _num(ctx, br.voltage[j], "V"),
                  _num(ctx, br.current[j], "A"), _num(ctx, br.power[j], "W"),
@@ -849,6 +872,7 @@ def _section_solution(ctx: _Ctx) -> list[Flowable]:
                 ["Element", "a → b", "Voltage V(a)−V(b)", "Current a→b", "Power", ""],
                 rows[:ROW_LIMIT],
                 [1, 1.4, 1.3, 1.3, 1.3, 0.8],
+                marks=ctx.marks([f"results.{c.name}.elements.{n}" for n in net.names[:ROW_LIMIT]]),
             )
         )
         if len(rows) > ROW_LIMIT:
@@ -987,7 +1011,8 @@ def _section_checks(ctx: _Ctx) -> list[Flowable]:
             rows.append((ch.id, _num(ctx, ch.value, unit), f"{rel} {_num(ctx, ch.limit, unit)}", percent(ch.utilization),
                          _num(ctx, ch.margin, unit), status, ch.basis))  # fmt: skip
         out.append(_table(ctx, ["Check", "Value", "Limit", "Utilisation", "Margin", "Status", "Limit basis"], rows,
-                          [1.4, 1, 1.1, 1.0, 1, 0.6, 2.4], fail_rows=fails))  # fmt: skip
+                          [1.4, 1, 1.1, 1.0, 1, 0.6, 2.4], fail_rows=fails,
+                          marks=ctx.marks([f"results.{c.name}.checks.{ch.id}" for ch in c.checks])))  # fmt: skip
         n_fail = len(fails)
         msg = (
             f"{len(c.checks)} checks: all pass."
@@ -1092,9 +1117,10 @@ def build_package(
     ----------
     results : Results
         From :func:`calcdoc.solve`.
-    previous : optional
-        The earlier revision's comparison, for a "changes" section (issue of
-        record control); laid out by an ``extra_sections`` builder.
+    previous : Comparison, optional
+        The comparison with an earlier revision (:func:`calcdoc.record.compare.compare`):
+        adds a "Changes from revision X" section first and revision marks
+        beside every changed row.
     template : str, optional
         Report style name or path (default: the project's ``[report] template``).
     base_dir : Path, optional
@@ -1120,6 +1146,7 @@ def build_package(
     ctx = _Ctx(
         results, style, fonts, p.report.significant_figures, _styles(fonts, style), width, {}, base
     )
+    ctx.previous = previous
     say("laying out the cover")
     story: list[Flowable] = [NextPageTemplate("body"), *_cover(ctx), PageBreak()]
     toc_style = TableStyle([("FONT", (0, 0), (-1, -1), fonts.regular, 9), ("VALIGN", (0, 0), (-1, -1), "TOP"),
@@ -1128,7 +1155,15 @@ def build_package(
         levelStyles=[ctx.styles["toc1"], ctx.styles["toc2"]], dotsMinLevel=0, tableStyle=toc_style
     )
     story += [_p("<b>Contents</b>", ctx, "h1"), toc, PageBreak()]
-    builders: list[SectionBuilder] = [_section_method, _section_inputs]
+    builders: list[SectionBuilder] = []
+    if previous is not None:
+        from calcdoc.report.changes import section_changes
+
+        def changes(c: _Ctx) -> list[Flowable]:
+            return section_changes(c, previous)
+
+        builders.append(changes)
+    builders += [_section_method, _section_inputs]
     if "diagram" in style.sections:
         builders.append(_section_diagram)
     appendix_c: list[Flowable] = []
