@@ -17,6 +17,7 @@ from calcdoc.analysis.preferred import preferred_findings
 from calcdoc.analysis.sensitivity import default_outputs, sensitivities
 from calcdoc.analysis.stages import (
     EnvelopeStage,
+    HistoryStage,
     PreferredStage,
     SensitivityStage,
     SweepStage,
@@ -73,4 +74,9 @@ def analyse(project: Project, *, closed_form: bool = False) -> Results:
         )
     if any(e.series for e in project.elements):
         extra["preferred_values"] = PreferredStage(preferred_findings(project, nominal.values))
+    from calcdoc.record.history import history_findings
+
+    findings = history_findings(project)
+    if findings:
+        extra["history"] = HistoryStage(findings)
     return replace(results, extra=extra)

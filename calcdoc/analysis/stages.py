@@ -96,3 +96,16 @@ class PreferredStage:
             for f in self.findings
             if not f.in_series
         )
+
+
+@dataclass(frozen=True)
+class HistoryStage:
+    """Findings of the revision-history check (:func:`calcdoc.record.history.history_findings`)."""
+
+    findings: tuple
+
+    def project_json(self) -> list[dict]:
+        return [{"severity": f.severity, "key": f.key, "message": f.message} for f in self.findings]
+
+    def notes(self) -> tuple[str, ...]:
+        return tuple(f"Revision history {f.severity}: {f.key}: {f.message}" for f in self.findings)

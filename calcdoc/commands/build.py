@@ -25,6 +25,9 @@ def run(args, term) -> int:
     if args.sign:
         pdf = _sign(pdf, package.signature_box, Path(args.sign), project, show)
     term.progress_done()
+    for note in results.notes:
+        if note.startswith("Revision history"):
+            term.warning(note)
     out = Path(args.output) if args.output else default_output(project, Path(args.file))
     write_atomic(out, pdf)
     term.line(f"wrote {out} ({len(pdf)} bytes)")
@@ -35,17 +38,15 @@ def _previous(path: str, results, term):
     """Compare with an earlier revision (a package or a project file)."""
     from calcdoc.analysis.pipeline import analyse
     from calcdoc.record.compare import compare
+    from calcdoc.record.history import same_revision_warning
     from calcdoc.record.package import baseline
 
-    old = analyse(baseline(path))
-    comparison = compare(old, results)
-    new_rev = results.project.document.revision
+    before = baseline(path)
+    comparison = compare(analyse(before), results)
     inputs_changed = any(c.section != "input file" for c in comparison.inputs)
-    if inputs_changed and comparison.old_revision == new_rev:
-        term.warning(
-            f"the inputs changed since {path} but the revision is still {new_rev!r}: "
-            "raise document.revision and add a document.history entry"
-        )
+    warning = same_revision_warning(before, results.project, inputs_changed)
+    if warning:
+        term.warning(warning)
     return comparison
 
 

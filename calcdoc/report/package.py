@@ -483,6 +483,11 @@ def _cover(ctx: _Ctx) -> list[Flowable]:
             (h.revision, h.date.isoformat() if h.date else "—", h.description) for h in d.history
         ]
         out.append(_table(ctx, ["Revision", "Date", "Description"], rows, [0.8, 1.0, 5]))
+        hist = r.extra.get("history")
+        if hist is not None:
+            for f in hist.findings:
+                out.append(_p(f"<font color='{ctx.style.colours['fail']}'><b>History {f.severity}:</b> "
+                              f"{_t(f.key)}: {_t(f.message)}</font>", ctx, "small"))  # fmt: skip
         out.append(Spacer(1, 8))
     out.append(_p("<b>Results summary</b>", ctx))
     checks = r.checks
