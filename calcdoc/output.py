@@ -120,6 +120,8 @@ class Terminal:
                 self.line()
                 self.checks_table(r.checks, sig)
             self.line()
+        for note in results.notes:
+            self.line(note)
 
     def _rows(self, headers, rows, limit_rows: int) -> None:
         if len(rows) > limit_rows:
