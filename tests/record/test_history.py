@@ -10,6 +10,8 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import calcdoc
 from calcdoc.record.history import history_findings, revision_key, same_revision_warning
@@ -113,3 +115,28 @@ def test_same_revision_warning() -> None:
     newer = project("C", [("A", "2026-10-02"), ("B", "2026-11-20")], "2026-12-01")
     assert same_revision_warning(old, newer, inputs_changed=True) is None
     assert "comes before" in same_revision_warning(newer, old, inputs_changed=True)
+
+
+def _bijective_letters(n: int) -> str:
+    """n >= 1 in bijective base 26 (1 = A, 26 = Z, 27 = AA), as spreadsheet columns count."""
+    out = ""
+    while n:
+        n, r = divmod(n - 1, 26)
+        out = chr(ord("A") + r) + out
+    return out
+
+
+@settings(deadline=None, max_examples=200)
+@given(st.integers(1, 20000), st.integers(1, 20000))
+def test_letter_revisions_follow_bijective_base_26(a: int, b: int) -> None:
+    # Letter revisions count like bijective base-26 numerals (A..Z, AA..ZZ,
+    # AAA..), the usual way lettered revisions continue past Z (common
+    # practice, no source); their order must match the numbers'.
+    ka, kb = revision_key(_bijective_letters(a)), revision_key(_bijective_letters(b))
+    assert (ka < kb) == (a < b) and (ka == kb) == (a == b)
+
+
+@settings(deadline=None, max_examples=200)
+@given(st.integers(0, 10**6), st.integers(0, 10**6))
+def test_numbered_revisions_order_numerically(a: int, b: int) -> None:
+    assert (revision_key(str(a)) < revision_key(str(b))) == (a < b)
