@@ -76,7 +76,7 @@ class SweepStage:
         for s in self.sweeps:
             for c in s.crossings:
                 out.append(
-                    f"Sweep {s.name}: {c.output} crosses the {c.check} limit at {s.target} = {c.at:.6g} (SI)"
+                    f"Sweep {s.name}: {c.output} crosses the {c.check} limit at {s.target} = {s.target_text(c.at)}"
                 )
         return tuple(out)
 

@@ -40,6 +40,13 @@ class SweepResult:
         str, tuple[tuple[str, float], ...]
     ]  # output -> (check id, limit) drawn on the plot
     crossings: tuple[Crossing, ...]
+    unit: str = ""  # the target's unit symbol ("" when dimensionless)
+
+    def target_text(self, value: float) -> str:
+        """A value of the swept quantity for people: with its unit, or in per cent."""
+        from calcdoc.format import eng
+
+        return eng(value, self.unit, 5) if self.unit else f"{value * 100:.5g} %"
 
     def to_json(self) -> dict:
         return {
@@ -118,16 +125,16 @@ def sweep_result(project, nominal, sweep) -> SweepResult:
                         "rising" if vals[k + 1] > vals[k] else "falling",
                     )
                 )
-    kind = (
-        "parameter" if sweep.target not in net.names else net.types[net.names.index(sweep.target)]
-    )
+    from calcdoc.format import VALUE_UNITS
+    from calcdoc.model.quantities import SI_SYMBOL
+
+    if sweep.target in net.names:
+        kind = net.types[net.names.index(sweep.target)]
+        unit = VALUE_UNITS[kind] if VALUE_UNITS[kind] not in ("V/V", "A/A") else ""
+    else:
+        kind, unit = "parameter", SI_SYMBOL.get(sweep.start.dimension, "")
+    name = sweep.name or f"{sweep.target} sweep"
+    points = tuple(pts.tolist())
     return SweepResult(
-        sweep.name or f"{sweep.target} sweep",
-        sweep.target,
-        kind,
-        tuple(pts.tolist()),
-        sweep.scale,
-        series,
-        limits,
-        tuple(crossings),
+        name, sweep.target, kind, points, sweep.scale, series, limits, tuple(crossings), unit
     )

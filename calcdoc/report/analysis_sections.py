@@ -10,7 +10,7 @@ from reportlab.graphics.shapes import Drawing, Line, Rect, String
 from reportlab.lib import colors
 from reportlab.platypus import Flowable, KeepTogether, Spacer
 
-from calcdoc.format import UNITS, VALUE_UNITS, eng, percent
+from calcdoc.format import UNITS, eng, percent
 from calcdoc.model.load import parse_output
 
 
@@ -269,7 +269,7 @@ def _plot(ctx, sweep, output) -> Drawing:
     pad = (hi - lo) * 0.08 or abs(hi) * 0.1 or 1.0
     lp.yValueAxis.valueMin, lp.yValueAxis.valueMax = lo - pad, hi + pad
     lp.xValueAxis.valueMin, lp.xValueAxis.valueMax = xs[0], xs[-1]
-    unit_x = "" if sweep.target_kind in ("parameter",) else VALUE_UNITS.get(sweep.target_kind, "")
+    unit_x = sweep.unit
     unit_y = _unit(output)
     lp.xValueAxis.labelTextFormat = lambda v: _target(v, unit_x, 3)
     lp.yValueAxis.labelTextFormat = lambda v: eng(v, unit_y, 3)
@@ -313,7 +313,7 @@ def section_sweeps(ctx, r) -> list[Flowable]:
     sub = _numbering(ctx)
     for s in st.sweeps:
         out.append(sub(s.name))
-        unit = "" if s.target_kind == "parameter" else VALUE_UNITS.get(s.target_kind, "")
+        unit = s.unit
         out.append(_p(_t(f"{s.target} from {_target(s.points[0], unit, ctx.sig)} to {_target(s.points[-1], unit, ctx.sig)} "
                          f"({len(s.points)} points, {s.scale} scale); every point is a full solution."), ctx, "small"))  # fmt: skip
         for output in s.series:
