@@ -460,6 +460,18 @@ def _cover(ctx: _Ctx) -> list[Flowable]:
     d = p.document
     out: list[Flowable] = []
     org = d.organisation or ctx.style.organisation
+    logo = ctx.style.logo
+    if logo is not None and logo.is_file():
+        from reportlab.platypus import Image
+
+        try:
+            img = Image(str(logo))
+            scale = min(1.0, 40 / img.imageHeight, 160 / img.imageWidth)
+            img.drawWidth, img.drawHeight = img.imageWidth * scale, img.imageHeight * scale
+            img.hAlign = "RIGHT"
+            out.append(img)
+        except OSError:
+            out.append(_p(_t(f"(logo {logo.name} could not be read)"), ctx, "small"))
     out.append(_p(f"<font color='{ctx.style.colours['accent']}'><b>CALCULATION RECORD</b></font>"
                   + (f" &nbsp;·&nbsp; {_t(org)}" if org else ""), ctx))  # fmt: skip
     out.append(Spacer(1, 6))

@@ -212,3 +212,18 @@ def test_large_circuit_uses_connection_table():
     flat = " ".join(p.extract_text() for p in PdfReader(io.BytesIO(package.pdf)).pages)
     assert "too many for a readable drawing" in flat
     assert re.search(r"Appendix C\s+Matrix listing", flat)
+
+
+def test_style_logo_on_the_cover(tmp_path):
+    from PIL import Image
+
+    Image.new("RGB", (300, 80), (31, 58, 95)).save(tmp_path / "logo.png")
+    (tmp_path / "house.toml").write_text(
+        'paper = "A4"\nlogo = "logo.png"\norganisation = "Example Works"\n'
+    )
+    results = calcdoc.solve(calcdoc.load(ROOT / "tests" / "cases" / "divider.toml"))
+    package = build_package(results, template=str(tmp_path / "house.toml"))
+    reader = PdfReader(io.BytesIO(package.pdf))
+    xobj = reader.pages[0]["/Resources"].get("/XObject", {})
+    assert any(x.get_object().get("/Subtype") == "/Image" for x in xobj.values())
+    assert "Example Works" in reader.pages[0].extract_text()
