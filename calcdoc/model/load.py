@@ -80,7 +80,7 @@ DOCUMENT_KEYS = (
 )  # fmt: skip
 ELEMENT_KEYS = (
     "type", "nodes", "value", "gain", "control", "tolerance", "rating",
-    "description", "series", "tcr", "derating",
+    "description", "source", "basis", "series", "tcr", "derating",
 )  # fmt: skip
 RATING_KEYS = {"power": WATT, "voltage": VOLT, "current": AMPERE}
 
@@ -614,6 +614,8 @@ def _elements(
             tcr = q.magnitude if q else None
         derating = _derating(spec.get("derating"), f"{path}.derating", faults)
         desc = _text(spec, "description", path, faults)
+        source = _text(spec, "source", path, faults)
+        basis = _text(spec, "basis", path, faults)
         if ok and value is not None and vexpr is not None:
             out.append(
                 Element(
@@ -628,6 +630,8 @@ def _elements(
                     tolerance=tol,
                     rating=rating,
                     description=desc,
+                    source=source,
+                    basis=basis,
                     series=series,
                     tcr=tcr,
                     derating=derating,

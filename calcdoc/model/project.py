@@ -71,6 +71,8 @@ class Element:
     tolerance: Tolerance | None = None
     rating: Rating = field(default_factory=Rating)
     description: str = ""
+    source: str = ""  # where the value and rating come from ("datasheet rev C, table 4")
+    basis: str = ""  # how they were chosen ("design policy")
     series: str | None = None
     tcr: Number | None = None  # 1/K
     derating: Derating | None = None
