@@ -35,14 +35,14 @@ def loads(text, path: str = "<input>") -> Project:
 
 
 def solve(project: Project) -> Results:
-    """Solve and verify every case; see :func:`calcdoc.results.solve_project`."""
-    from calcdoc.analysis.pipeline import analyse
+    """Solve, verify and analyse every case; see :func:`calcdoc.pipeline.analyse`."""
+    from calcdoc.pipeline import analyse
 
     return analyse(project)
 
 
 def to_json(results: Results) -> dict:
     """The design.md section 6 results object."""
-    from calcdoc.results import results_document
+    from calcdoc.results_json import results_document
 
     return results_document(results)

@@ -78,10 +78,13 @@ class Terminal:
             self.line(title)
             self.line("=" * len(title))
             s = r.solution
-            self.line(
-                f"{len(s.unknowns)} unknowns, {s.method}; residual {s.residual:.3g}, "
-                f"condition {s.condition:.3g}"
-            )
+            if s.exact is not None:
+                self.line(f"{len(s.unknowns)} unknowns, {s.method} (no rounding)")
+            else:
+                self.line(
+                    f"{len(s.unknowns)} unknowns, {s.method}; relative residual {s.residual:.1e}, "
+                    f"condition {s.condition:.3g}, estimated error {s.error_estimate:.1e}"
+                )
             for w in s.warnings:
                 self.warning(w)
             self.line()

@@ -1,30 +1,411 @@
-"""The pipeline from a validated project to verified results, and the JSON form.
+"""Frozen result types: everything the report, the JSON and the terminal read.
 
-:func:`solve_project` runs assemble → solve → derive → verify for the
-nominal case and every ``[[cases]]`` entry; :func:`results_document` turns
-the results into the design.md section 6 object (plain floats, SI units).
-Both are pure.
+The stages below (``mna``, ``verify``, ``analysis``) build these; the
+pipeline (:mod:`calcdoc.pipeline`) gathers them into :class:`Results`.
+Nothing here computes a result: the types only hold them, with small
+conveniences (lookups, counts).
 """
 
 from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from fractions import Fraction
 from typing import Any
 
 import numpy as np
 
-from calcdoc import __version__
-from calcdoc.analysis.derating import tcr_value
-from calcdoc.errors import SingularCircuitError
-from calcdoc.mna.branches import Branches, branches
-from calcdoc.mna.netlist import Netlist, netlist
-from calcdoc.mna.solve import Solution, solve
 from calcdoc.model.project import Case, Project
 from calcdoc.model.quantities import Number
-from calcdoc.model.values import element_values
-from calcdoc.verify.balance import Ledger, LoopCheck, kcl_residuals, kvl_loops, power_ledger
-from calcdoc.verify.checks import Check, design_checks
+
+# --------------------------------------------------------------------------
+# the indexed circuit
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Netlist:
+    """The circuit of one case, indexed: what the MNA stages work on.
+
+    Node 0 is the reference.  Element ``j`` runs from node ``a[j]`` to node
+    ``b[j]``.
+
+    Attributes
+    ----------
+    nodes : tuple of str
+        Node names, the reference first.
+    names, types : tuple of str
+        Element names and types, in project order.
+    a, b : numpy.ndarray of int
+        Terminal node indices.
+    values : tuple of Fraction or float
+        Each element's main value in SI units (value or gain).
+    control_nodes : dict of int to (int, int)
+        Node-pair controls.
+    control_element : dict of int to int
+        Element controls: index of the controlling element.
+    float_values : numpy.ndarray, optional
+        ``values`` as floats (computed when omitted).
+    states : tuple of str
+        Each element's state (``""`` for single-state elements).
+    more : tuple of (int, str, Number)
+        Further number keys: (element index, key, value).
+    absent : tuple of (int, str)
+        Optional number keys an element leaves out.
+    """
+
+    nodes: tuple[str, ...]
+    names: tuple[str, ...]
+    types: tuple[str, ...]
+    a: np.ndarray
+    b: np.ndarray
+    values: tuple[Number, ...]
+    control_nodes: dict[int, tuple[int, int]]
+    control_element: dict[int, int]
+    float_values: np.ndarray | None = None
+    states: tuple[str, ...] = ()
+    more: tuple[tuple[int, str, Number], ...] = ()
+    absent: tuple[tuple[int, str], ...] = ()
+
+    def floats(self) -> np.ndarray:
+        """Main element values as a float64 array."""
+        if self.float_values is not None:
+            return self.float_values
+        return np.array([float(v) for v in self.values], dtype=float)
+
+    @property
+    def reference(self) -> str:
+        return self.nodes[0]
+
+    def index(self, element: str) -> int:
+        return self.names.index(element)
+
+    def state(self, j: int) -> str:
+        return self.states[j] if self.states else ""
+
+    @property
+    def exact(self) -> bool:
+        """True when every number is an exact rational."""
+        return all(not isinstance(v, float) for v in self.values) and all(
+            not isinstance(v, float) for _, _, v in self.more
+        )
+
+
+# --------------------------------------------------------------------------
+# equations as data
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Coefficient:
+    """``sign · numerator / denominator``, each a symbol name or 1."""
+
+    sign: int
+    numerator: str | None = None
+    denominator: str | None = None
+
+    def value(self, values: Mapping[str, Number]) -> Number:
+        v: Number = Fraction(self.sign)
+        if self.numerator is not None:
+            v = v * values[self.numerator]
+        if self.denominator is not None:
+            v = v / values[self.denominator]
+        return v
+
+
+@dataclass(frozen=True)
+class Term:
+    """``coefficient · unknown`` (``unknown`` None: a constant term) of one element."""
+
+    coefficient: Coefficient
+    unknown: str | None
+    element: str
+
+
+@dataclass(frozen=True)
+class Equation:
+    """One MNA equation: ``sum(lhs) = sum(rhs)``.
+
+    ``kind`` is ``"kcl"`` (``subject`` a node) or ``"branch"`` (``subject``
+    an element); ``rhs`` holds only constant terms.
+    """
+
+    kind: str
+    subject: str
+    lhs: tuple[Term, ...]
+    rhs: tuple[Term, ...]
+
+    @property
+    def title(self) -> str:
+        if self.kind == "kcl":
+            return f"KCL at node {self.subject}"
+        return f"Branch equation of {self.subject}"
+
+    def text(self, values: Mapping[str, Number] | None = None, fmt=None) -> str:
+        """Plain-text form; with ``values``, numbers substituted for symbols."""
+        return f"{_side(self.lhs, values, fmt)} = {_side(self.rhs, values, fmt)}"
+
+
+def _symbol(name: str, values: Mapping[str, Number] | None, fmt) -> str:
+    if values is None:
+        return name
+    v = values[name]
+    return fmt(name, v) if fmt else f"{float(v):.6g}"
+
+
+def _side(terms: tuple[Term, ...], values, fmt) -> str:
+    if not terms:
+        return "0"
+    parts = []
+    for t in terms:
+        c = t.coefficient
+        body = t.unknown or ""
+        if c.numerator:
+            body = _symbol(c.numerator, values, fmt) + ("·" + body if body else "")
+        if c.denominator:
+            body = (body or "1") + "/" + _symbol(c.denominator, values, fmt)
+        body = body or "1"
+        parts.append(("−" if c.sign < 0 else "+") + " " + body)
+    s = " ".join(parts)
+    return s[2:] if s.startswith("+ ") else "−" + s[1:]
+
+
+@dataclass(frozen=True)
+class Symbol:
+    """A symbol of the equations: one number key of one element.
+
+    ``name`` is the element name for its main value, ``KEY(ELEMENT)``
+    otherwise (``R(K1)``).
+    """
+
+    name: str
+    element: str
+    key: str
+    unit: str
+
+
+@dataclass(frozen=True)
+class Formulation:
+    """The MNA system in symbols.
+
+    Attributes
+    ----------
+    unknowns : tuple of str
+        ``V(node)`` then ``I(element)`` names, in column order.
+    equations : tuple of Equation
+        In row order.
+    symbols : tuple of Symbol
+        Every symbol the equations use, with its unit.
+    """
+
+    unknowns: tuple[str, ...]
+    equations: tuple[Equation, ...]
+    symbols: tuple[Symbol, ...] = ()
+
+    def matrix(self, values: Mapping[str, Number]) -> tuple[list[list[Number]], list[Number]]:
+        """Dense A and z with values substituted (exact where values are)."""
+        col = {u: i for i, u in enumerate(self.unknowns)}
+        n = len(self.unknowns)
+        A: list[list[Number]] = [[Fraction(0)] * n for _ in range(n)]
+        z: list[Number] = [Fraction(0)] * n
+        for r, eq in enumerate(self.equations):
+            for t in eq.lhs:
+                A[r][col[t.unknown]] += t.coefficient.value(values)  # type: ignore[index]
+            for t in eq.rhs:
+                z[r] += t.coefficient.value(values)
+        return A, z
+
+    def units(self) -> dict[str, str]:
+        return {s.name: s.unit for s in self.symbols}
+
+
+# --------------------------------------------------------------------------
+# solution and element quantities
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Solution:
+    """The solved MNA system.
+
+    Attributes
+    ----------
+    unknowns : tuple of str
+    x : numpy.ndarray
+        Values of the unknowns (V or A), float64.
+    exact : tuple of Fraction or None
+        The same in exact rational arithmetic, when that path was taken.
+    method : str
+        ``"exact rational"``, ``"dense LU"`` or ``"sparse LU"``.
+    residual : float or None
+        Relative residual ‖A·x − z‖∞ / (‖A‖∞·‖x‖∞ + ‖z‖∞) of the float
+        solution; None for the exact path, which has none.
+    condition : float or None
+        Condition number estimate (1-norm) of the equilibrated matrix; None
+        for the exact path.
+    warnings : tuple of str
+    formulation : Formulation or None
+        The symbolic equations, when the system is small enough to keep them.
+    matrix : (numpy.ndarray, numpy.ndarray) or None
+        The dense A and z that were solved (float64), for small systems.
+    error_estimate : float or None
+        Estimated relative error of x after iterative refinement (float paths).
+    refinement_steps : int
+        Iterative-refinement steps taken.
+    limits : mapping of str to int
+        The size thresholds that chose the method (``exact``, ``dense``).
+    """
+
+    unknowns: tuple[str, ...]
+    x: np.ndarray
+    exact: tuple[Fraction, ...] | None
+    method: str
+    residual: float | None
+    condition: float | None
+    warnings: tuple[str, ...]
+    formulation: Formulation | None
+    matrix: tuple[np.ndarray, np.ndarray] | None = None
+    error_estimate: float | None = None
+    refinement_steps: int = 0
+    limits: Mapping[str, int] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class Branches:
+    """Per-element results, in netlist order (SI units).
+
+    Attributes
+    ----------
+    node_voltage : numpy.ndarray
+        Voltage of every node from the reference (V), reference first.
+    voltage, current, power : numpy.ndarray
+        V(a) − V(b) (V), current a → b (A), v·i (W).
+    law_voltage : numpy.ndarray
+        The voltage each element's own law gives (source value, gain ×
+        control, R·i): the terms of the KVL check.  Where the law does not
+        fix the voltage (a current source, an open), the node voltages do.
+    law_fixes_voltage : numpy.ndarray of bool
+        True where ``law_voltage`` comes from the element's law, False where
+        it comes from the node voltages.
+    exact_node_voltage, exact_current, exact_law_voltage : tuple of Fraction or None
+        Exact values when the solve was exact.
+    """
+
+    node_voltage: np.ndarray
+    voltage: np.ndarray
+    current: np.ndarray
+    power: np.ndarray
+    law_voltage: np.ndarray
+    exact_node_voltage: tuple[Fraction, ...] | None = None
+    exact_current: tuple[Fraction, ...] | None = None
+    exact_law_voltage: tuple[Fraction, ...] | None = None
+    law_fixes_voltage: np.ndarray | None = None
+
+
+# --------------------------------------------------------------------------
+# verification
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Loop:
+    """One fundamental loop: the chord, then the tree path back.
+
+    ``elements`` and ``signs``: +1 where the loop runs through the element
+    from its node a to its node b, −1 against.
+    """
+
+    chord: str
+    elements: tuple[str, ...]
+    signs: tuple[int, ...]
+    sum: float
+    terms: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class LoopCheck:
+    """KVL over the fundamental loops.
+
+    ``loops`` lists every loop with its terms when ``listed``; for large
+    circuits it is empty and ``chords`` / ``sums`` give each loop's closing
+    element and its sum (V).
+    """
+
+    loops: tuple[Loop, ...]
+    listed: bool
+    max_abs_sum: float
+    chords: tuple[str, ...] = ()
+    sums: tuple[float, ...] = ()
+
+    @property
+    def count(self) -> int:
+        return len(self.loops) if self.listed else len(self.chords)
+
+
+@dataclass(frozen=True)
+class Ledger:
+    """Power balance (W): absorbed by, delivered by, and the imbalance."""
+
+    absorbed: float
+    delivered: float
+    imbalance: float
+    by_element: tuple[tuple[str, float], ...]
+
+    @property
+    def relative(self) -> float:
+        scale = max(self.absorbed, self.delivered)
+        return abs(self.imbalance) / scale if scale else 0.0
+
+
+@dataclass(frozen=True)
+class Check:
+    """One design check.
+
+    Attributes
+    ----------
+    id : str
+        ``"Rs.power"``, ``"nodes.field.min"``.
+    subject : str
+        Element or node name.
+    quantity : str
+        ``power``, ``voltage``, ``current``, ``reverse voltage`` (elements)
+        or ``node voltage``.
+    value, limit : float
+        Result and allowed limit (SI). For element checks the value is a
+        magnitude; for a node window it is the signed node voltage.
+    bound : str
+        ``"max"`` (value must not exceed limit) or ``"min"``.
+    utilization : float or None
+        value / limit for ``max`` checks; limit / value for a ``min`` check
+        when both are positive; otherwise None.
+    margin : float
+        How far the value is inside the limit (negative when failing).
+    basis : str
+        How the limit was obtained, in words.
+    """
+
+    id: str
+    subject: str
+    quantity: str
+    value: float
+    limit: float
+    bound: str
+    utilization: float | None
+    margin: float
+    basis: str
+
+    @property
+    def status(self) -> str:
+        return "pass" if self.margin >= 0 else "fail"
+
+    @property
+    def passed(self) -> bool:
+        return self.margin >= 0
+
+
+# --------------------------------------------------------------------------
+# a case and the whole project
+# --------------------------------------------------------------------------
 
 
 @dataclass(frozen=True)
@@ -41,6 +422,8 @@ class CaseResult:
     kvl: LoopCheck
     ledger: Ledger
     checks: tuple[Check, ...]
+    symbol_values: Mapping[str, Number] = field(default_factory=dict)
+    """Every symbol of the equations (element values and further keys) with its value."""
 
     @property
     def failed(self) -> tuple[Check, ...]:
@@ -49,10 +432,12 @@ class CaseResult:
 
 @dataclass(frozen=True)
 class Results:
-    """Results of every case of a project.
+    """Results of every case of a project, and of the analyses it asked for.
 
-    ``extra`` holds the results of further analysis stages (tolerance,
-    sensitivity, sweeps), keyed by stage name.
+    ``extra`` holds the analysis results keyed by stage name
+    (``tolerance``, ``envelope``, ``sensitivity``, ``sweeps``,
+    ``preferred_values``, ``history``, ``closed_form``); each stage object
+    may offer ``failed_checks()`` and ``notes()``.
     """
 
     project: Project
@@ -65,12 +450,7 @@ class Results:
 
     @property
     def failed(self) -> tuple[tuple[str, Check], ...]:
-        """Failing checks as (case name, check), analysis stages included.
-
-        An analysis stage in ``extra`` may add its own failures (e.g. a
-        check failing at a tolerance extreme) through a ``failed_checks()``
-        method returning the same pairs.
-        """
+        """Failing checks as (case name, check), analysis stages included."""
         out = [(r.name, c) for r in self.cases for c in r.failed]
         for data in self.extra.values():
             more = getattr(data, "failed_checks", None)
@@ -99,158 +479,3 @@ class Results:
                 ):
                     best = (r.name, c)
         return best
-
-
-def operating_values(
-    project: Project, case: Case | None = None, **overrides: Any
-) -> dict[str, Number]:
-    """Element values for a case, with the resistance temperature coefficient applied."""
-    values = element_values(project, case, **overrides)
-    temp = project.analysis.temperature
-    if temp is not None:
-        ref = project.analysis.reference_temperature
-        for e in project.elements:
-            if e.tcr is not None:
-                values[e.name] = tcr_value(values[e.name], e.tcr, temp, ref)
-    return values
-
-
-def solve_case(
-    project: Project, case: Case | None = None, values: Mapping[str, Number] | None = None
-) -> CaseResult:
-    """Solve and verify one case.
-
-    Raises
-    ------
-    SingularCircuitError
-        With ``case`` set to the case name.
-    """
-    name = case.name if case else "nominal"
-    vals = dict(values) if values is not None else operating_values(project, case)
-    net = netlist(project, vals)
-    try:
-        sol = solve(net)
-    except SingularCircuitError as exc:
-        exc.case = name  # type: ignore[attr-defined]
-        raise
-    br = branches(net, sol)
-    return CaseResult(
-        name, case, vals, net, sol, br, kcl_residuals(net, br), kvl_loops(net, br),
-        power_ledger(net, br), design_checks(project, net, br),
-    )  # fmt: skip
-
-
-def solve_project(project: Project) -> Results:
-    """Solve the nominal case and every operating case.
-
-    Parameters
-    ----------
-    project : Project
-
-    Returns
-    -------
-    Results
-
-    >>> from calcdoc.model.load import parse_project
-    >>> p = parse_project('''
-    ... [elements.V1]
-    ... type = "voltage_source"
-    ... nodes = ["in", "gnd"]
-    ... value = "10 V"
-    ... [elements.R1]
-    ... type = "resistor"
-    ... nodes = ["in", "out"]
-    ... value = "1 kohm"
-    ... [elements.R2]
-    ... type = "resistor"
-    ... nodes = ["out", "gnd"]
-    ... value = "1 kohm"
-    ... ''')
-    >>> r = solve_project(p)
-    >>> float(r.cases[0].branches.node_voltage[2])
-    5.0
-    """
-    cases = [solve_case(project, None)]
-    cases += [solve_case(project, c) for c in project.cases]
-    return Results(project, tuple(cases))
-
-
-def _f(x: Any) -> float | None:
-    if x is None:
-        return None
-    v = float(x)
-    return v if np.isfinite(v) else None
-
-
-def case_document(r: CaseResult) -> dict[str, Any]:
-    """The JSON object of one case (design.md section 6)."""
-    net, br = r.netlist, r.branches
-    nodes = dict(zip(net.nodes, br.node_voltage.tolist(), strict=True))
-    elements = {
-        name: {"voltage": v, "current": i, "power": p}
-        for name, v, i, p in zip(
-            net.names, br.voltage.tolist(), br.current.tolist(), br.power.tolist(), strict=True
-        )
-    }
-    kcl = dict(zip(net.nodes[1:], r.kcl[1:].tolist(), strict=True))
-    if r.kvl.listed:
-        kvl = [{"loop": list(lp.elements), "sum": lp.sum} for lp in r.kvl.loops]
-    else:
-        kvl = [{"chord": c, "sum": v} for c, v in zip(r.kvl.chords, r.kvl.sums, strict=True)]
-    return {
-        "name": r.name,
-        "nodes": nodes,
-        "elements": elements,
-        "power": {
-            "absorbed": r.ledger.absorbed,
-            "delivered": r.ledger.delivered,
-            "imbalance": r.ledger.imbalance,
-        },
-        "kcl": kcl,
-        "kvl": kvl,
-        "checks": [
-            {
-                "id": c.id,
-                "subject": c.subject,
-                "quantity": c.quantity,
-                "value": c.value,
-                "limit": c.limit,
-                "utilization": _f(c.utilization),
-                "margin": c.margin,
-                "bound": c.bound,
-                "status": c.status,
-            }
-            for c in r.checks
-        ],
-        "solver": {
-            "method": r.solution.method,
-            "unknowns": len(r.solution.unknowns),
-            "residual": r.solution.residual,
-            "condition": _f(r.solution.condition),
-            "kcl_max": float(np.max(np.abs(r.kcl))) if len(r.kcl) else 0.0,
-            "kvl_max": r.kvl.max_abs_sum,
-            "warnings": list(r.solution.warnings),
-        },
-    }
-
-
-def results_document(results: Results) -> dict[str, Any]:
-    """The whole ``calcdoc solve --json`` object."""
-    p = results.project
-    cases = [case_document(r) for r in results.cases]
-    for stage, data in results.extra.items():
-        per_case = getattr(data, "per_case_json", None)
-        if per_case is not None:
-            for doc, extra in zip(cases, per_case(), strict=True):
-                if extra is not None:
-                    doc[stage] = extra
-    out: dict[str, Any] = {
-        "tool": {"name": "calcdoc", "version": __version__},
-        "input": {"path": p.path, "sha256": p.sha256},
-        "cases": cases,
-    }
-    for stage, data in results.extra.items():
-        whole = getattr(data, "project_json", None)
-        if whole is not None:
-            out[stage] = whole()
-    return out

@@ -1,11 +1,18 @@
-"""Normalised sensitivities S = (∂y/∂p)·(p/y) of outputs to every element value and parameter.
+"""Sensitivities of outputs to every element value and parameter.
 
-Numerically by the adjoint method: with A·x = z at the nominal values,
-one transposed solve Aᵀλ = ∇ₓy per output gives ∂y/∂sⱼ = ∂y/∂sⱼ|ₓ − λ·(Pⱼx − Zⱼ)
-for every element at once (Pⱼ, Zⱼ: the stamp patterns of
-:mod:`calcdoc.analysis.batch`).  Where the closed-form solution exists
-(small circuits), node-voltage sensitivities are exact derivatives of it.
-Parameters act through the elements whose expressions use them.
+For an output y and a quantity p the *normalised* sensitivity is
+S = (∂y/∂p)·(p/y): the per-cent change of y per per-cent change of p.  An
+output that is zero at nominal (a balanced bridge's detector current) has
+no normalised sensitivity; it gets the *absolute* one instead, the change
+of y per 1 % change of p in y's own unit, and the result says which.
+
+Derivatives come by the adjoint method from the element table's stamps
+(:func:`calcdoc.mna.batch.adjoint`: one transposed solve per output for
+all quantities at once).  Where the closed-form solution exists (small
+circuits), node-voltage sensitivities are exact derivatives of it.
+Parameters act through the elements whose expressions use them (chain
+rule, with the derivative of each element value by central differences of
+its expression).
 """
 
 from __future__ import annotations
@@ -14,19 +21,23 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from calcdoc.analysis.batch import patterns
+from calcdoc.mna.batch import adjoint, factor, output_gradient, parameter_jacobian, patterns
 from calcdoc.model.load import parse_output
 from calcdoc.model.quantities import Quantity
 from calcdoc.model.values import element_values
+
+RESOLUTION = 1e-12  # an output below this share of the largest of its kind counts as zero
 
 
 @dataclass(frozen=True)
 class Sensitivity:
     """Sensitivities of one output, ranked by magnitude.
 
-    ``ranked`` holds (quantity name, kind "element"/"parameter", S) with
-    S the normalised sensitivity (% change of the output per % change of
-    the quantity); ``absolute`` the same as ∂y/∂p in SI units.
+    ``measure`` is ``"normalised"`` (``ranked`` holds % per %) or
+    ``"absolute"`` (``ranked`` holds the change of the output, in its own
+    unit, per 1 % change of the quantity: the output is zero at nominal).
+    ``ranked`` holds (quantity name, kind ``element``/``parameter``, value);
+    ``absolute`` the derivative ∂y/∂p in SI units.
     """
 
     output: str
@@ -34,6 +45,7 @@ class Sensitivity:
     method: str
     ranked: tuple[tuple[str, str, float], ...]
     absolute: tuple[tuple[str, float], ...]
+    measure: str = "normalised"
 
 
 def default_outputs(project, case_result) -> tuple[str, ...]:
@@ -45,119 +57,84 @@ def default_outputs(project, case_result) -> tuple[str, ...]:
     return tuple(dict.fromkeys(outs))
 
 
-def _gradients(pat, x, s, output: str):
-    """(y, ∇ₓy, explicit ∂y/∂s) of one output at the nominal solution."""
-    net = pat.net
-    n = len(x)
-    n_nodes = len(net.nodes)
-    nv = np.concatenate([[0.0], x[: n_nodes - 1]])
-
-    def e(k: int) -> np.ndarray:
-        g = np.zeros(n)
-        if k:
-            g[k - 1] = 1.0
-        return g
-
+def _output_key(net, output: str) -> tuple[str, int]:
     subject, q = parse_output(output)
-    m = len(net.names)
-    ds = np.zeros(m)
     if q == "node":
-        k = net.nodes.index(subject)
-        return nv[k], e(k), ds
-    j = net.names.index(subject)
-    a, b = int(net.a[j]), int(net.b[j])
-    gv = e(a) - e(b)
-    v = nv[a] - nv[b]
-    t = net.types[j]
-    di = np.zeros(m)
-    if j in pat.col:
-        gi, i = np.eye(n)[pat.col[j]], x[pat.col[j]]
-    elif t == "resistor":
-        gi, i = s[j] * gv, s[j] * v
-        di[j] = v
-    elif t == "current_source":
-        gi, i = np.zeros(n), s[j]
-        di[j] = 1.0
-    elif t == "vccs":
-        p, mm = net.control_nodes[j]
-        gi, i = s[j] * (e(p) - e(mm)), s[j] * (nv[p] - nv[mm])
-        di[j] = nv[p] - nv[mm]
-    else:  # cccs without its own unknown
-        c = pat.col[net.control_element[j]]
-        gi, i = s[j] * np.eye(n)[c], s[j] * x[c]
-        di[j] = x[c]
-    if q == "voltage":
-        return v, gv, ds
-    if q == "current":
-        return i, gi, di
-    return v * i, i * gv + v * gi, v * di
+        return "node", net.nodes.index(subject)
+    return q, net.names.index(subject)
 
 
-def sensitivities(project, case_result, outputs=None, closed=None) -> tuple[Sensitivity, ...]:
-    """Normalised sensitivities of ``outputs`` in one case."""
-    net = case_result.netlist
-    pat = patterns(net)
-    x = case_result.solution.x
-    s = pat.s0
-    vals = net.floats()
-    A = pat.A0
-    R = np.einsum("jab,b->ja", pat.P, x) - pat.Z  # (m, n): Pj x - Zj
-    dsdv = np.where(pat.plain, -1.0 / vals**2, 1.0)
-    # parameters: d(element value)/d(parameter) by central differences of the expressions
-    dpar = {}
+def _scale(br, kind: str) -> float:
+    arr = {"node": br.node_voltage, "voltage": br.voltage, "current": br.current,
+           "power": br.power}[kind]  # fmt: skip
+    return float(np.max(np.abs(arr))) if len(arr) else 0.0
+
+
+def _parameter_derivatives(project, case_result, names) -> dict[str, tuple[float, np.ndarray]]:
+    """d(element value)/d(parameter) by central differences of the expressions."""
+    out = {}
     for prm in project.parameters:
         base = float(prm.value.magnitude)
         if base == 0:
             continue
         h = abs(base) * 1e-6
-        up = element_values(
-            project,
-            case_result.case,
-            parameter_overrides={prm.name: Quantity(base + h, prm.value.dimension)},
-        )
-        dn = element_values(
-            project,
-            case_result.case,
-            parameter_overrides={prm.name: Quantity(base - h, prm.value.dimension)},
-        )
-        d = np.array([(float(up[e]) - float(dn[e])) / (2 * h) for e in net.names])
+        vals = []
+        for t in (base + h, base - h):
+            v = element_values(
+                project,
+                case_result.case,
+                parameter_overrides={prm.name: Quantity(t, prm.value.dimension)},
+            )
+            vals.append(np.array([float(v[e]) for e in names]))
+        d = (vals[0] - vals[1]) / (2 * h)
         if np.any(d):
-            dpar[prm.name] = (base, d)
+            out[prm.name] = (base, d)
+    return out
+
+
+def sensitivities(project, case_result, outputs=None, closed=None) -> tuple[Sensitivity, ...]:
+    """Sensitivities of ``outputs`` (default :func:`default_outputs`) in one case."""
+    net = case_result.netlist
+    st = patterns(net)
+    x = case_result.solution.x
+    p = st.p_float
+    m = len(net.names)
+    vals = net.floats()
+    fac = factor(st, p)
+    R = parameter_jacobian(st, p, x)
+    dpar = _parameter_derivatives(project, case_result, net.names)
     out = []
     for output in outputs or default_outputs(project, case_result):
-        y, gx, gs = _gradients(pat, x, s, output)
-        lam = np.linalg.solve(A.T, gx)
-        dyds = gs - R @ lam
-        dydv = dyds * dsdv
+        kind, idx = _output_key(net, output)
+        y, gx, gp = output_gradient(st, p, x, kind, idx)
+        dydv = adjoint(st, p, x, gx, gp, fac, R)[:m]
         method = "adjoint"
-        if (
-            closed is not None
-            and parse_output(output)[1] == "node"
-            and f"V({output})" in closed.unknowns
-        ):
+        if closed is not None and kind == "node" and f"V({net.nodes[idx]})" in closed.unknowns:
             import sympy
 
-            expr = closed.expressions[closed.unknowns.index(f"V({output})")]
+            expr = closed.expressions[closed.unknowns.index(f"V({net.nodes[idx]})")]
             subs = {sympy.Symbol(nm): float(v) for nm, v in zip(net.names, vals, strict=True)}
             dydv = np.array(
                 [float(sympy.diff(expr, sympy.Symbol(nm)).subs(subs)) for nm in net.names]
             )
             method = "closed form"
+        zero = abs(y) <= RESOLUTION * max(_scale(case_result.branches, kind), 1e-300)
+        measure = "absolute" if zero else "normalised"
+
+        def rank(g: float, base: float, zero=zero, y=y) -> float:
+            return g * base * 0.01 if zero else g * base / y
+
         items = [
-            (nm, "element", float(g * v / y) if y else float("nan"), float(g))
+            (nm, "element", rank(float(g), float(v)), float(g))
             for nm, g, v in zip(net.names, dydv, vals, strict=True)
         ]
         for pname, (base, d) in dpar.items():
             g = float(dydv @ d)
-            items.append((pname, "parameter", float(g * base / y) if y else float("nan"), g))
-        big = max((abs(it[2]) for it in items if np.isfinite(it[2])), default=0.0)
-        # a dependence below 1e-9 of the largest is rounding in the parameter derivatives, not a sensitivity
-        items = [
-            it
-            for it in items
-            if it[3] != 0.0 and not (np.isfinite(it[2]) and abs(it[2]) < 1e-9 * big)
-        ]
-        items.sort(key=lambda t: -abs(t[2]) if np.isfinite(t[2]) else 0.0)
+            items.append((pname, "parameter", rank(g, base), g))
+        big = max((abs(it[2]) for it in items), default=0.0)
+        # a dependence below 1e-9 of the largest is rounding in the derivatives, not a sensitivity
+        items = [it for it in items if it[3] != 0.0 and abs(it[2]) >= 1e-9 * big]
+        items.sort(key=lambda t: -abs(t[2]))
         out.append(
             Sensitivity(
                 output,
@@ -165,6 +142,7 @@ def sensitivities(project, case_result, outputs=None, closed=None) -> tuple[Sens
                 method,
                 tuple((n, k, sv) for n, k, sv, _ in items),
                 tuple((n, g) for n, _, _, g in items),
+                measure,
             )
         )
     return tuple(out)

@@ -100,7 +100,7 @@ class PreferredStage:
 
 @dataclass(frozen=True)
 class HistoryStage:
-    """Findings of the revision-history check (:func:`calcdoc.record.history.history_findings`)."""
+    """Findings of the revision-history check (:func:`calcdoc.model.history.history_findings`)."""
 
     findings: tuple
 

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from calcdoc.analysis.batch import patterns, solve_batch
+from calcdoc.mna.batch import patterns, solve_batch
 from calcdoc.model.load import parse_output
 from calcdoc.model.quantities import Quantity
 from calcdoc.model.values import element_values
@@ -91,7 +91,7 @@ def sweep_result(project, nominal, sweep) -> SweepResult:
         if sweep.scale == "log"
         else np.linspace(a, b, sweep.points)
     )
-    batch = solve_batch(pat, _value_rows(project, sweep, pts))
+    batch = solve_batch(pat, pat.main_to_p(_value_rows(project, sweep, pts)))
     series, limits, crossings = {}, {}, []
     for output in sweep.outputs:
         y = _series(batch, net, output)
@@ -109,7 +109,9 @@ def sweep_result(project, nominal, sweep) -> SweepResult:
 
             def g(t: float, c=c, mag=mag, output=output) -> float:
                 yy = _series(
-                    solve_batch(pat, _value_rows(project, sweep, np.array([t]))), net, output
+                    solve_batch(pat, pat.main_to_p(_value_rows(project, sweep, np.array([t])))),
+                    net,
+                    output,
                 )[0]
                 return (abs(yy) if mag else yy) - c.limit
 
@@ -125,12 +127,12 @@ def sweep_result(project, nominal, sweep) -> SweepResult:
                         "rising" if vals[k + 1] > vals[k] else "falling",
                     )
                 )
-    from calcdoc.format import VALUE_UNITS
+    from calcdoc.model.elements import KINDS
     from calcdoc.model.quantities import SI_SYMBOL
 
     if sweep.target in net.names:
         kind = net.types[net.names.index(sweep.target)]
-        unit = VALUE_UNITS[kind] if VALUE_UNITS[kind] not in ("V/V", "A/A") else ""
+        unit = KINDS[kind].main.unit if KINDS[kind].main.unit not in ("V/V", "A/A") else ""
     else:
         kind, unit = "parameter", SI_SYMBOL.get(sweep.start.dimension, "")
     name = sweep.name or f"{sweep.target} sweep"

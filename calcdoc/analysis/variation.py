@@ -151,6 +151,10 @@ class Variation:
                 out[:, j] = out[:, j] * (1.0 + delta[:, i])
         return out
 
+    def params(self, st, delta: np.ndarray) -> np.ndarray:
+        """Stamp parameters (K, P) of the structure ``st`` for deviations ``delta`` (K, q)."""
+        return st.main_to_p(self.values(delta))
+
     def bounds(self) -> tuple[np.ndarray, np.ndarray]:
         """Lowest and highest relative deviation of each quantity."""
         lo = np.array([-q.minus for q in self.quantities])

@@ -13,7 +13,7 @@ from calcdoc.fileio import write_atomic
 
 
 def run(args, term) -> int:
-    from calcdoc.analysis.pipeline import analyse
+    from calcdoc.pipeline import analyse
     from calcdoc.report.package import build_package, default_output
 
     show = None if args.quiet else term.progress
@@ -36,9 +36,9 @@ def run(args, term) -> int:
 
 def _previous(path: str, results, term):
     """Compare with an earlier revision (a package or a project file)."""
-    from calcdoc.analysis.pipeline import analyse
+    from calcdoc.model.history import same_revision_warning
+    from calcdoc.pipeline import analyse
     from calcdoc.record.compare import compare
-    from calcdoc.record.history import same_revision_warning
     from calcdoc.record.package import baseline
 
     before = baseline(path)

@@ -1,81 +1,83 @@
-"""Solving A·x = z: exact, dense or sparse, with residual and condition.
+"""Solving A·x = z: exact, dense or sparse, equilibrated and refined.
 
 Method by size (unknowns ``n``):
 
-- ``n ≤ EXACT_LIMIT`` and every value rational: Gauss–Jordan elimination in
-  exact rational arithmetic (:class:`fractions.Fraction`); the residual is
-  exactly zero;
-- ``n ≤ DENSE_LIMIT``: LU in float64 (LAPACK via numpy) with the 2-norm
-  condition number;
-- larger: sparse LU (SuperLU via scipy.sparse) with a 1-norm condition
-  estimate (Hager–Higham, ``scipy.sparse.linalg.onenormest``).
+- ``n ≤ EXACT_LIMIT`` and every number rational: Gauss–Jordan elimination
+  in exact rational arithmetic (:class:`fractions.Fraction`).  The solution
+  is exact: it has no residual and no condition number.  Should the
+  numbers grow beyond ``EXACT_BITS`` bits during elimination, the float
+  path below is taken instead (and said so);
+- ``n ≤ DENSE_LIMIT``: LU in float64 (LAPACK via numpy);
+- larger: sparse LU (SuperLU via scipy.sparse).
 
-A singular system raises :class:`~calcdoc.errors.SingularCircuitError`
-naming the unknowns involved (from a null-space vector).
+Both float paths first *equilibrate* A (rows, then columns, scaled by
+powers of two, which is exact), so that a circuit mixing 1 µΩ and 1 TΩ is
+solved as well as its structure allows, and then apply *iterative
+refinement*: the residual z − A·x is computed in extended precision
+(``numpy.longdouble``) and the correction solved with the same factors,
+while the correction keeps shrinking.  Reported: the relative residual
+‖A·x − z‖∞ / (‖A‖∞·‖x‖∞ + ‖z‖∞), the 1-norm condition estimate of the
+equilibrated matrix, and the estimated relative error of x (the size of
+the last correction, ‖dx‖∞/‖x‖∞).  When that estimate exceeds
+``ERROR_WARNING`` the solution carries a warning.
+
+A system that is singular on its numbers (after the named structural tests
+of :mod:`calcdoc.mna.diagnose`) raises
+:class:`~calcdoc.errors.SingularCircuitError` naming the unknowns of the
+null space: the exact null space on the exact path, else the singular
+vector of the equilibrated matrix.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from fractions import Fraction
 
 import numpy as np
 
 from calcdoc.errors import SingularCircuitError
-from calcdoc.mna.formulation import Formulation, formulation, stamps, unknown_names
-from calcdoc.mna.netlist import Netlist
-from calcdoc.mna.topology import diagnose
+from calcdoc.mna.diagnose import diagnose, unknown_words
+from calcdoc.mna.formulation import formulation
+from calcdoc.mna.stamps import (
+    exact_system,
+    extended_parameters,
+    float_system,
+    law_residual,
+    structure,
+)
+from calcdoc.results import Netlist, Solution
 
 EXACT_LIMIT = 40
 DENSE_LIMIT = 400
-ILL_CONDITIONED = 1e12
+EXACT_BITS = 4096  # numerator/denominator size above which exact elimination gives way to floats
+ERROR_WARNING = 1e-9  # estimated relative error of x above which a solution is warned
+SINGULAR = 1e16  # condition (equilibrated) at or above which a float system counts as singular
+MAX_REFINEMENT = 8
+
+__all__ = ["Solution", "solve", "DENSE_LIMIT", "EXACT_LIMIT", "ERROR_WARNING"]
 
 
-@dataclass(frozen=True)
-class Solution:
-    """The solved MNA system.
+class _TooBig(Exception):
+    """Exact elimination outgrew EXACT_BITS."""
 
-    Attributes
-    ----------
-    unknowns : tuple of str
-    x : numpy.ndarray
-        Values of the unknowns (V or A), float64.
-    exact : tuple of Fraction or None
-        The same in exact rational arithmetic, when that path was taken.
-    method : str
-        ``"exact rational"``, ``"dense LU"`` or ``"sparse LU"``.
-    residual : float
-        ‖A·x − z‖∞ of the float solution (0 for the exact path).
-    condition : float
-        Condition number estimate of A (2-norm dense, 1-norm sparse).
-    warnings : tuple of str
-    formulation : Formulation or None
-        The symbolic equations, when the system is small enough to keep them.
-    matrix : (numpy.ndarray, numpy.ndarray) or None
-        The dense A and z that were solved (float64), up to DENSE_LIMIT unknowns.
+
+def _exact_solve(A: list[list[Fraction]], z: list[Fraction]) -> list[Fraction] | list[Fraction]:
+    """Gauss–Jordan in rationals.
+
+    Returns the solution, or raises :class:`_Singular` with a null vector.
     """
-
-    unknowns: tuple[str, ...]
-    x: np.ndarray
-    exact: tuple[Fraction, ...] | None
-    method: str
-    residual: float
-    condition: float
-    warnings: tuple[str, ...]
-    formulation: Formulation | None
-    matrix: tuple[np.ndarray, np.ndarray] | None = None
-
-
-def _exact_solve(A: list[list[Fraction]], z: list[Fraction]) -> list[Fraction] | int:
-    """Gauss–Jordan in rationals; returns the solution or the first dependent column."""
     n = len(A)
     M = [row[:] + [z[i]] for i, row in enumerate(A)]
-    where = [-1] * n
+    pivot_row_of: dict[int, int] = {}
     r = 0
     for c in range(n):
         p = next((i for i in range(r, n) if M[i][c] != 0), None)
         if p is None:
-            return c
+            # column c is free: null vector x_c = 1, x_k = −M[row(k)][c] for pivot columns
+            null = [Fraction(0)] * n
+            null[c] = Fraction(1)
+            for k, row in pivot_row_of.items():
+                null[k] = -M[row][c]
+            raise _Singular(null)
         M[r], M[p] = M[p], M[r]
         piv = M[r][c]
         rowr = [v / piv for v in M[r]]
@@ -85,26 +87,41 @@ def _exact_solve(A: list[list[Fraction]], z: list[Fraction]) -> list[Fraction] |
                 f = M[i][c]
                 Mi = M[i]
                 M[i] = [vi - f * vr for vi, vr in zip(Mi, rowr, strict=True)]
-        where[c] = r
+        big = max(
+            (max(v.numerator.bit_length(), v.denominator.bit_length()) for v in rowr), default=0
+        )
+        if big > EXACT_BITS:
+            raise _TooBig
+        pivot_row_of[c] = r
         r += 1  # noqa: SIM113
-    return [M[where[c]][n] for c in range(n)]
+    return [M[pivot_row_of[c]][n] for c in range(n)]
 
 
-def _null_unknowns(A: np.ndarray, names: tuple[str, ...]) -> list[str]:
-    _, s, vt = np.linalg.svd(A)
-    v = np.abs(vt[-1])
+class _Singular(Exception):
+    def __init__(self, null) -> None:
+        self.null = null
+
+
+def _singular(names: list[str], how: str) -> SingularCircuitError:
+    return SingularCircuitError(
+        "singular system",
+        f"{unknown_words(names)} {'is' if len(names) == 1 else 'are'} not determined by the "
+        f"equations ({how}); check the dependent-source gains and controls, which can cancel",
+        names,
+    )
+
+
+def _null_names(v: np.ndarray, names: tuple[str, ...]) -> list[str]:
+    v = np.abs(v)
     return [names[i] for i in np.flatnonzero(v > 1e-6 * v.max())]
 
 
-def _singular(names: list[str]) -> SingularCircuitError:
-    return SingularCircuitError(
-        "singular system",
-        "the equations do not fix the unknowns "
-        + ", ".join(names[:12])
-        + (f" and {len(names) - 12} more" if len(names) > 12 else "")
-        + " (the topology is sound: check dependent-source gains and controls, which can cancel)",
-        names,
-    )
+def _scaling(absA_rowmax, absA_colmax_fn):
+    """Powers of two for row and column scaling."""
+    r = np.exp2(-np.round(np.log2(np.where(absA_rowmax > 0, absA_rowmax, 1.0))))
+    c = absA_colmax_fn(r)
+    c = np.exp2(-np.round(np.log2(np.where(c > 0, c, 1.0))))
+    return r, c
 
 
 def solve(net: Netlist, *, keep_equations: bool | None = None) -> Solution:
@@ -114,7 +131,8 @@ def solve(net: Netlist, *, keep_equations: bool | None = None) -> Solution:
     ----------
     net : Netlist
     keep_equations : bool, optional
-        Keep the symbolic :class:`Formulation` (default: when n ≤ DENSE_LIMIT).
+        Keep the symbolic :class:`~calcdoc.results.Formulation` (default:
+        when n ≤ DENSE_LIMIT).
 
     Returns
     -------
@@ -123,89 +141,171 @@ def solve(net: Netlist, *, keep_equations: bool | None = None) -> Solution:
     Raises
     ------
     SingularCircuitError
-        Named topology fault, or a numerically singular system.
+        A named structural fault, or a system singular on its numbers.
     """
-    diagnose(net)
-    names = unknown_names(net)
-    n = len(names)
+    st = structure(net)
+    rows, cols, vals, z = float_system(st)
+    diagnose(st, (rows, cols, vals))
+    names = st.unknowns()
+    n = st.n
     if keep_equations is None:
         keep_equations = n <= DENSE_LIMIT
-    form = formulation(net) if (keep_equations or (n <= EXACT_LIMIT and net.exact)) else None
-    warnings: list[str] = []
-    if n <= EXACT_LIMIT and net.exact and form is not None:
-        values = dict(zip(net.names, net.values, strict=True))
-        Aq, zq = form.matrix(values)
-        got = _exact_solve(Aq, zq)  # type: ignore[arg-type]
-        Af = np.array([[float(v) for v in row] for row in Aq])
-        if isinstance(got, int):
-            raise _singular(_null_unknowns(Af, names))
-        x = np.array([float(v) for v in got])
-        cond = float(np.linalg.cond(Af))
-        residual = 0.0
-        method, exact = "exact rational", tuple(got)
-        dense = (Af, np.array([float(v) for v in zq]))
-    elif n <= DENSE_LIMIT:
-        rows, cols, vals, z = stamps(net)
+    form = formulation(st) if keep_equations else None
+    limits = {"exact": EXACT_LIMIT, "dense": DENSE_LIMIT}
+    notes: list[str] = []
+    if n <= EXACT_LIMIT and net.exact:
+        Aq, zq = exact_system(st)
+        try:
+            got = _exact_solve(Aq, zq)
+        except _Singular as s:
+            raise _singular(
+                [names[i] for i, v in enumerate(s.null) if v != 0], "exact rank"
+            ) from None
+        except _TooBig:
+            notes.append(
+                f"exact elimination outgrew {EXACT_BITS}-bit numbers; solved in floating point"
+            )
+        else:
+            x = np.array([float(v) for v in got])
+            dense = (
+                np.array([[float(v) for v in row] for row in Aq]),
+                np.array([float(v) for v in zq]),
+            )
+            return Solution(names, x, tuple(got), "exact rational", None, None, (), form, dense,
+                            None, 0, limits)  # fmt: skip
+    if n <= DENSE_LIMIT:
         A = np.zeros((n, n))
         np.add.at(A, (rows, cols), vals)
-        cond = float(np.linalg.cond(A))
-        if not np.isfinite(cond) or cond > 1e17:
-            raise _singular(_null_unknowns(A, names))
-        x = np.linalg.solve(A, z)
-        residual = float(np.max(np.abs(A @ x - z))) if n else 0.0
-        method, exact = "dense LU", None
+        x, info = _dense(A, z, names, _residual(st))
         dense = (A, z)
+        method = "dense LU"
     else:
-        x, residual, cond = _sparse_solve(net, names)
-        method, exact = "sparse LU", None
+        x, info = _sparse(rows, cols, vals, z, n, names, _residual(st))
         dense = None
-    if cond > ILL_CONDITIONED:
+        method = "sparse LU"
+    residual, cond, err, steps = info
+    warnings = list(notes)
+    if err > ERROR_WARNING:
         warnings.append(
-            f"the system is ill-conditioned (condition number {cond:.3g}); "
-            "results may carry large rounding errors"
+            f"estimated relative error of the solution {err:.1g} exceeds {ERROR_WARNING:g} "
+            f"(condition number {cond:.3g} after equilibration): results may carry large "
+            "rounding errors"
         )
-    return Solution(names, x, exact, method, residual, cond, tuple(warnings), form, dense)
+    return Solution(names, x, None, method, residual, cond, tuple(warnings), form, dense,
+                    err, steps, limits)  # fmt: skip
 
 
-def _sparse_solve(net: Netlist, names: tuple[str, ...]) -> tuple[np.ndarray, float, float]:
+def _refine(residual, solve_scaled, z: np.ndarray, x: np.ndarray, anorm: float):
+    """Iterative refinement with the residual z − A·x in extended precision.
+
+    ``residual(x)`` takes and returns extended-precision vectors.
+    Returns (x, relative residual, estimated relative error, steps).
+    """
+    steps = 0
+    prev = np.inf
+    while True:
+        r = residual(x.astype(np.longdouble))
+        dx = solve_scaled(r.astype(float))
+        xn = float(np.max(np.abs(x))) if len(x) else 0.0
+        dn = float(np.max(np.abs(dx))) if len(dx) else 0.0
+        size = dn / xn if xn else dn
+        if not np.isfinite(size):
+            err = np.inf
+            break
+        if size >= prev or steps >= MAX_REFINEMENT:
+            err = size  # no longer shrinking: the error of x as it stands
+            break
+        x = x + dx
+        steps += 1
+        prev = size
+        if size <= np.finfo(float).eps:
+            err = size
+            break
+    r = residual(x.astype(np.longdouble))
+    rn = float(np.max(np.abs(r))) if len(r) else 0.0
+    xn = float(np.max(np.abs(x))) if len(x) else 0.0
+    zn = float(np.max(np.abs(z))) if len(z) else 0.0
+    denom = anorm * xn + zn
+    return x, (rn / denom if denom else 0.0), float(err), steps
+
+
+def _residual(st):
+    p = extended_parameters(st)
+    return lambda x: law_residual(st, x, p)
+
+
+def _dense(A: np.ndarray, z: np.ndarray, names, residual) -> tuple[np.ndarray, tuple]:
+    n = len(z)
+    if n == 0:
+        return np.zeros(0), (0.0, 1.0, 0.0, 0)
+    absA = np.abs(A)
+    r, c = _scaling(absA.max(axis=1), lambda r: (absA * r[:, None]).max(axis=0))
+    As = A * r[:, None] * c[None, :]
+    cond = float(np.linalg.cond(As, 1)) if np.all(np.isfinite(As)) else np.inf
+    if not np.isfinite(cond) or cond >= SINGULAR:
+        _, _, vt = np.linalg.svd(As)
+        raise _singular(_null_names(c * vt[-1], names), "numerical rank")
+
+    def solve_scaled(b: np.ndarray) -> np.ndarray:
+        return c * np.linalg.solve(As, r * b)
+
+    x = solve_scaled(z)
+    x, res, err, steps = _refine(residual, solve_scaled, z, x, float(absA.sum(1).max()))
+    return x, (res, cond, err, steps)
+
+
+def _sparse(rows, cols, vals, z, n: int, names, residual) -> tuple[np.ndarray, tuple]:
     import warnings as _w
 
-    from scipy.sparse import csc_matrix
+    from scipy.sparse import coo_matrix, diags
     from scipy.sparse.linalg import LinearOperator, MatrixRankWarning, onenormest, splu
 
-    n = len(names)
-    rows, cols, vals, z = stamps(net)
-    A = csc_matrix((vals, (rows, cols)), shape=(n, n))
+    A = coo_matrix((vals, (rows, cols)), shape=(n, n)).tocsr()
+    absA = abs(A)
+    rowmax = np.asarray(absA.max(axis=1).todense()).ravel()
+
+    def colmax(r):
+        return np.asarray((diags(r) @ absA).max(axis=0).todense()).ravel()
+
+    r, c = _scaling(rowmax, colmax)
+    As = (diags(r) @ A @ diags(c)).tocsc()
     try:
         with _w.catch_warnings():
             _w.simplefilter("error", MatrixRankWarning)
-            lu = splu(A)
+            lu = splu(As)
     except (RuntimeError, MatrixRankWarning):
-        raise _sparse_singular(A, names) from None
-    x = lu.solve(z)
+        raise _sparse_singular(As, c, names) from None
+
+    def solve_scaled(b: np.ndarray) -> np.ndarray:
+        return c * lu.solve(r * b)
+
+    x = solve_scaled(z)
     if not np.all(np.isfinite(x)):
-        raise _sparse_singular(A, names)
-    residual = float(np.max(np.abs(A @ x - z)))
+        raise _sparse_singular(As, c, names)
     inv = LinearOperator((n, n), matvec=lu.solve, rmatvec=lambda y: lu.solve(y, trans="T"),
                          dtype=float)  # fmt: skip
-    inv.matmat = lambda X: np.column_stack([lu.solve(c) for c in X.T])  # type: ignore[method-assign]
+    inv.matmat = lambda X: np.column_stack([lu.solve(col) for col in X.T])  # type: ignore[method-assign]
     try:
-        cond = float(onenormest(A) * onenormest(inv))
+        cond = float(onenormest(As) * onenormest(inv))
     except Exception:  # pragma: no cover - estimator failure is not fatal
-        cond = float("nan")
-    return x, residual, cond
+        cond = float("inf")
+    if cond >= SINGULAR:
+        raise _sparse_singular(As, c, names)
+    x, res, err, steps = _refine(residual, solve_scaled, z, x, float(absA.sum(axis=1).max()))
+    return x, (res, cond, err, steps)
 
 
-def _sparse_singular(A, names: tuple[str, ...]) -> SingularCircuitError:
+def _sparse_singular(As, c, names: tuple[str, ...]) -> SingularCircuitError:
     from scipy.sparse.csgraph import structural_rank
 
     n = len(names)
     if n <= 3000:
-        return _singular(_null_unknowns(A.toarray(), names))
-    rank = int(structural_rank(A))
+        _, _, vt = np.linalg.svd(As.toarray())
+        return _singular(_null_names(c * vt[-1], names), "numerical rank")
+    rank = int(structural_rank(As))
     return SingularCircuitError(
         "singular system",
-        f"the {n} equations are singular (structural rank {rank}); the topology is sound, "
-        "check dependent-source gains and controls",
+        f"the {n} equations are singular (structural rank {rank}); "
+        "check the dependent-source gains and controls",
         (),
     )

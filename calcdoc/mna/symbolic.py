@@ -63,7 +63,7 @@ def closed_form(form: Formulation | None, values: Mapping[str, Number]) -> Close
     -------
     ClosedForm or None
 
-    >>> from calcdoc.mna.netlist import Netlist
+    >>> from calcdoc.results import Netlist
     >>> from calcdoc.mna.formulation import formulation
     >>> import numpy as np
     >>> net = Netlist(("gnd", "in", "out"), ("V1", "R1", "R2"),
@@ -75,7 +75,15 @@ def closed_form(form: Formulation | None, values: Mapping[str, Number]) -> Close
     """
     if form is None or len(form.unknowns) > MAX_UNKNOWNS:
         return None
-    names = sorted({t.element for eq in form.equations for t in (*eq.lhs, *eq.rhs)})
+    names = sorted(
+        {
+            s
+            for eq in form.equations
+            for t in (*eq.lhs, *eq.rhs)
+            for s in (t.coefficient.numerator, t.coefficient.denominator)
+            if s is not None
+        }
+    )
     if len(names) > MAX_ELEMENTS or not form.unknowns:
         return None
     import sympy
@@ -118,11 +126,6 @@ def closed_form(form: Formulation | None, values: Mapping[str, Number]) -> Close
 
 
 def _latex_name(name: str) -> str:
-    """``R12`` → ``R_{12}``; names with other characters kept upright."""
-    head = name.rstrip("0123456789")
-    tail = name[len(head) :]
-    if head.isalpha() and tail:
-        return f"{head}_{{{tail}}}"
-    if name.isalnum():
-        return name
-    return r"\mathrm{" + name.replace("_", r"\_") + "}"
+    """A symbol typeset as the name it is, upright (``R12`` stays ``R12``, no subscripts)."""
+    safe = "".join(c for c in name if c.isalnum() or c in "_.-()")
+    return r"\mathrm{" + safe.replace("_", r"\_") + "}"

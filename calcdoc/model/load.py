@@ -17,7 +17,7 @@ from pathlib import Path
 from typing import Any
 
 from calcdoc.errors import Fault, ProjectError
-from calcdoc.model.elements import KINDS
+from calcdoc.model.elements import KINDS, RATING_KEYS, element_keys
 from calcdoc.model.expressions import (
     ExpressionError,
     Literal,
@@ -33,6 +33,7 @@ from calcdoc.model.project import (
     Document,
     Element,
     HistoryEntry,
+    KeyValue,
     Limits,
     NodeWindow,
     Parameter,
@@ -78,11 +79,6 @@ DOCUMENT_KEYS = (
     "title", "number", "revision", "date", "project", "organisation", "purpose",
     "scope", "assumptions", "references", "history", "conclusion",
 )  # fmt: skip
-ELEMENT_KEYS = (
-    "type", "nodes", "value", "gain", "control", "tolerance", "rating",
-    "description", "source", "basis", "series", "tcr", "derating",
-)  # fmt: skip
-RATING_KEYS = {"power": WATT, "voltage": VOLT, "current": AMPERE}
 
 
 class _Faults:
@@ -497,25 +493,23 @@ def _node_ok(name: Any, good: set[str]) -> bool:
 def _elements(
     raw: Any, faults: _Faults, params: Mapping[str, Quantity], param_names: Any
 ) -> list[Element]:
+    """Every ``[elements.NAME]`` table, validated against the element table."""
     if not isinstance(raw, dict):
         _table(raw, "elements", faults)
         return []
-    t = raw
-    if not t:
+    if not raw:
         faults.add("elements", "the circuit has no elements")
     out: list[Element] = []
-    allowed = frozenset(ELEMENT_KEYS)
     kinds_list = list(KINDS)
+    allowed_of = {t: frozenset(element_keys(k)) for t, k in KINDS.items()}
     good_nodes: set[str] = set()
-    for name, spec in t.items():
+    for name, spec in raw.items():
         path = f"elements.{name}"
         if not _name_ok(name, path, faults, "element"):
             continue
         if not isinstance(spec, dict):
             faults.add(path, f"expected a table, found {_kind(spec)}")
             continue
-        if not allowed.issuperset(spec):
-            _keys(spec, ELEMENT_KEYS, path, faults)
         etype = spec.get("type")
         if etype is None:
             faults.add(path, "missing key 'type' (one of: " + ", ".join(KINDS) + ")")
@@ -526,40 +520,68 @@ def _elements(
                 f"{path}.type", f"unknown element type {etype!r}{_hint(str(etype), kinds_list)}"
             )
             continue
-        nodes = spec.get("nodes")
-        ok = True
-        if (
-            not isinstance(nodes, list)
-            or len(nodes) != 2
-            or not (_node_ok(nodes[0], good_nodes) and _node_ok(nodes[1], good_nodes))
-        ):
-            faults.add(f"{path}.nodes", 'expected two node names, such as ["bus", "gnd"]')
-            ok = False
-        elif nodes[0] == nodes[1]:
-            faults.add(f"{path}.nodes", f"both terminals are on node {nodes[0]!r}")
-            ok = False
-        vkey = kind.value_key
-        other = "gain" if vkey == "value" else "value"
-        if other in spec:
-            faults.add(f"{path}.{other}", f"a {etype} takes '{vkey}', not '{other}'")
-        if vkey not in spec:
-            faults.add(path, f"missing key '{vkey}'")
+        allowed = allowed_of[etype]
+        if not allowed.issuperset(spec):
+            _element_keys(spec, kind, allowed, path, faults)
+        element = _element(name, spec, kind, path, faults, params, param_names, good_nodes)
+        if element is not None:
+            out.append(element)
+    return out
+
+
+def _element_keys(spec, kind, allowed, path: str, faults: _Faults) -> None:
+    """Name each key the type does not take, with a hint."""
+    others = {k.name for t in KINDS.values() for k in t.keys} | {"control", "state"}
+    for key in spec:
+        if key in allowed:
             continue
-        vexpr = _value_expr(spec[vkey], f"{path}.{vkey}", faults, kind.dimension)
+        if key in others:
+            takes = ", ".join(f"'{k.name}'" for k in kind.keys)
+            faults.add(f"{path}.{key}", f"a {kind.type} takes no '{key}' (its numbers: {takes})")
+        else:
+            faults.add(f"{path}.{key}", f"unknown key{_hint(key, sorted(allowed))}")
+
+
+def _element(
+    name: str, spec: dict, kind, path: str, faults: _Faults, params, param_names, good_nodes
+) -> Element | None:
+    etype = kind.type
+    nodes = spec.get("nodes")
+    ok = True
+    if (
+        not isinstance(nodes, list)
+        or len(nodes) != 2
+        or not (_node_ok(nodes[0], good_nodes) and _node_ok(nodes[1], good_nodes))
+    ):
+        words = " and ".join(kind.terminals)
+        faults.add(f"{path}.nodes", f'expected two node names ({words}), such as ["bus", "gnd"]')
+        ok = False
+    elif nodes[0] == nodes[1]:
+        faults.add(f"{path}.nodes", f"both terminals are on node {nodes[0]!r}")
+        ok = False
+    numbers: dict[str, tuple[Quantity, str, Node]] = {}
+    for key in kind.keys:
+        kpath = f"{path}.{key.name}"
+        if key.name not in spec:
+            if key.required:
+                faults.add(path, f"missing key '{key.name}' ({key.words or key.name})")
+                ok = False
+            continue
+        vexpr = _value_expr(spec[key.name], kpath, faults, key.dimension)
         value = (
-            _resolved(vexpr, f"{path}.{vkey}", faults, kind.dimension, params, param_names)
-            if vexpr
-            else None
+            _resolved(vexpr, kpath, faults, key.dimension, params, param_names) if vexpr else None
         )
-        control_nodes = control_element = None
-        if kind.control is None:
-            if "control" in spec:
-                faults.add(f"{path}.control", f"a {etype} has no control")
-        elif "control" not in spec:
+        if value is None or vexpr is None:
+            ok = False
+            continue
+        numbers[key.name] = (value, vexpr[0], vexpr[1])
+    control_nodes = control_element = None
+    if kind.control is not None:
+        c = spec.get("control")
+        if c is None:
             faults.add(path, "missing key 'control'")
             ok = False
         elif kind.control == "nodes":
-            c = spec["control"]
             if not isinstance(c, list) or len(c) != 2 or not all(isinstance(n, str) for n in c):
                 faults.add(
                     f"{path}.control", 'expected the controlling node pair, such as ["in", "gnd"]'
@@ -570,74 +592,72 @@ def _elements(
                 ok = False
             else:
                 control_nodes = (c[0], c[1])
-        else:
-            c = spec["control"]
-            if not isinstance(c, str):
-                faults.add(
-                    f"{path}.control",
-                    "expected the name of the element whose current controls this one",
-                )
-                ok = False
-            elif c == name:
-                faults.add(f"{path}.control", "an element cannot be controlled by its own current")
-                ok = False
-            else:
-                control_element = c
-        rating = Rating()
-        if "rating" in spec:
-            r = _table(spec["rating"], f"{path}.rating", faults)
-            _keys(r, RATING_KEYS, f"{path}.rating", faults)
-            got = {}
-            for q, dim in RATING_KEYS.items():
-                if q in r:
-                    v = _quantity(r[q], dim, f"{path}.rating.{q}", faults)
-                    if v is not None and v.magnitude <= 0:
-                        faults.add(f"{path}.rating.{q}", "a rating must be positive")
-                    elif v is not None:
-                        got[q] = v.magnitude
-            rating = Rating(**got)
-        tol = _tolerance(spec.get("tolerance"), f"{path}.tolerance", faults)
-        series = None
-        if "series" in spec:
-            s = spec["series"]
-            if s not in SERIES:
-                faults.add(
-                    f"{path}.series", f"expected one of {', '.join(SERIES)}{_hint(str(s), SERIES)}"
-                )
-            elif etype != "resistor":
-                faults.add(f"{path}.series", "a preferred-value series applies to resistors only")
-            else:
-                series = s
-        tcr = None
-        if "tcr" in spec:
-            q = _quantity(spec["tcr"], dim_div(NONE, KELVIN), f"{path}.tcr", faults)
-            tcr = q.magnitude if q else None
-        derating = _derating(spec.get("derating"), f"{path}.derating", faults)
-        desc = _text(spec, "description", path, faults)
-        source = _text(spec, "source", path, faults)
-        basis = _text(spec, "basis", path, faults)
-        if ok and value is not None and vexpr is not None:
-            out.append(
-                Element(
-                    name=name,
-                    type=etype,
-                    nodes=(nodes[0], nodes[1]),
-                    value=value.magnitude,
-                    value_text=vexpr[0],
-                    value_expr=vexpr[1],
-                    control_nodes=control_nodes,
-                    control_element=control_element,
-                    tolerance=tol,
-                    rating=rating,
-                    description=desc,
-                    source=source,
-                    basis=basis,
-                    series=series,
-                    tcr=tcr,
-                    derating=derating,
-                )  # fmt: skip
+        elif not isinstance(c, str):
+            faults.add(
+                f"{path}.control",
+                "expected the name of the element whose current controls this one",
             )
-    return out
+            ok = False
+        elif c == name:
+            faults.add(f"{path}.control", "an element cannot be controlled by its own current")
+            ok = False
+        else:
+            control_element = c
+    state = None
+    if kind.states:
+        state = spec.get("state", kind.states[0])
+        if state not in kind.states:
+            faults.add(
+                f"{path}.state",
+                f"expected one of {', '.join(kind.states)}{_hint(str(state), kind.states)}",
+            )
+            ok = False
+    rating = Rating()
+    if "rating" in spec:
+        rpath = f"{path}.rating"
+        r = _table(spec["rating"], rpath, faults)
+        _keys(r, kind.ratings, rpath, faults)
+        got = {}
+        for q in kind.ratings:
+            if q in r:
+                v = _quantity(r[q], RATING_KEYS[q].dimension, f"{rpath}.{q}", faults)
+                if v is not None and v.magnitude <= 0:
+                    faults.add(f"{rpath}.{q}", "a rating must be positive")
+                elif v is not None:
+                    got[q] = v.magnitude
+        rating = Rating(**got)
+    tol = _tolerance(spec.get("tolerance"), f"{path}.tolerance", faults)
+    series = None
+    if "series" in spec:
+        s = spec["series"]
+        if s not in SERIES:
+            faults.add(
+                f"{path}.series", f"expected one of {', '.join(SERIES)}{_hint(str(s), SERIES)}"
+            )
+        elif kind.main.unit != "Ω":
+            faults.add(f"{path}.series", "a preferred-value series applies to resistances only")
+        else:
+            series = s
+    tcr = None
+    if "tcr" in spec:
+        q = _quantity(spec["tcr"], dim_div(NONE, KELVIN), f"{path}.tcr", faults)
+        tcr = q.magnitude if q else None
+    derating = _derating(spec.get("derating"), f"{path}.derating", faults)
+    desc = _text(spec, "description", path, faults)
+    source = _text(spec, "source", path, faults)
+    basis = _text(spec, "basis", path, faults)
+    main = kind.main.name
+    if not ok or main not in numbers:
+        return None
+    value, text, expr = numbers[main]
+    more = tuple(KeyValue(k, q.magnitude, t, x) for k, (q, t, x) in numbers.items() if k != main)
+    return Element(
+        name=name, type=etype, nodes=(nodes[0], nodes[1]), value=value.magnitude,
+        value_text=text, value_expr=expr, control_nodes=control_nodes,
+        control_element=control_element, tolerance=tol, rating=rating, description=desc,
+        source=source, basis=basis, series=series, tcr=tcr, derating=derating, more=more,
+        state=state,
+    )  # fmt: skip
 
 
 def _limits(raw: Any, faults: _Faults, nodes: set[str], declared_nodes: Any = ()) -> Limits:
@@ -708,7 +728,7 @@ def _cases(
         for target, value in _table(spec.get("set"), f"{path}.set", faults).items():
             spath = f"{path}.set.{target}"
             if target in elements:
-                dim = elements[target].kind.dimension
+                dim = elements[target].kind.main.dimension
             elif target in params:
                 dim = params[target].value.dimension
             else:
@@ -827,7 +847,7 @@ def _sweeps(
         _keys(spec, ("name", "target", "from", "to", "points", "scale", "outputs"), path, faults)
         target = spec.get("target")
         if target in elements:
-            dim = elements[target].kind.dimension
+            dim = elements[target].kind.main.dimension
         elif target in params:
             dim = params[target].value.dimension
         else:
@@ -1061,7 +1081,9 @@ def _check_case_values(project: Project, faults: _Faults) -> None:
             continue
         for e in project.elements:
             _representable(
-                Quantity(values[e.name], e.kind.dimension), f"{path} (elements.{e.name})", faults
+                Quantity(values[e.name], e.kind.main.dimension),
+                f"{path} (elements.{e.name})",
+                faults,
             )
 
 

@@ -10,7 +10,7 @@ import datetime as _dt
 from dataclasses import dataclass, field
 from fractions import Fraction
 
-from calcdoc.model.elements import KINDS, ElementKind
+from calcdoc.model.elements import KINDS, ElementType
 from calcdoc.model.expressions import Node
 from calcdoc.model.quantities import Dimension, Number, Quantity
 
@@ -31,16 +31,13 @@ class Rating:
     power: Number | None = None
     voltage: Number | None = None
     current: Number | None = None
+    reverse_voltage: Number | None = None
 
     def given(self) -> tuple[tuple[str, Number], ...]:
         return tuple(
             (q, v)
-            for q, v in (
-                ("power", self.power),
-                ("voltage", self.voltage),
-                ("current", self.current),
-            )
-            if v is not None
+            for q in ("power", "voltage", "current", "reverse_voltage")
+            if (v := getattr(self, q)) is not None
         )
 
 
@@ -50,6 +47,16 @@ class Derating:
 
     knee: Fraction
     zero: Fraction
+
+
+@dataclass(frozen=True)
+class KeyValue:
+    """A further number key of an element (beyond its main value)."""
+
+    key: str
+    value: Number
+    text: str
+    expr: Node
 
 
 @dataclass(frozen=True)
@@ -76,10 +83,17 @@ class Element:
     series: str | None = None
     tcr: Number | None = None  # 1/K
     derating: Derating | None = None
+    more: tuple[KeyValue, ...] = ()
+    state: str | None = None  # for multi-state elements (a contact: "open" / "closed")
 
     @property
-    def kind(self) -> ElementKind:
+    def kind(self) -> ElementType:
         return KINDS[self.type]
+
+    @property
+    def numbers(self) -> tuple[tuple[str, Number], ...]:
+        """Every number key given: (key, value), the main value first."""
+        return ((self.kind.main.name, self.value), *((k.key, k.value) for k in self.more))
 
 
 @dataclass(frozen=True)
@@ -156,8 +170,9 @@ class Setting:
 
     target: str
     text: str
-    expr: Node
+    expr: Node | None
     dimension: Dimension
+    state: bool = False  # True: ``text`` is a state of a multi-state element ("open")
 
 
 @dataclass(frozen=True)

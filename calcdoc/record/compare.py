@@ -334,7 +334,7 @@ def _element_fields(e: Element) -> _Flat:
     out: _Flat = {
         "type": (e.type, None),
         "nodes": (" → ".join(e.nodes), None),
-        e.kind.value_key: (e.value_text, float(e.value)),
+        e.kind.main.name: (e.value_text, float(e.value)),
         "description": (e.description or None, None),
         "tolerance": (_tolerance_text(e.tolerance), None),
     }

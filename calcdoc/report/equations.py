@@ -11,8 +11,8 @@ from __future__ import annotations
 from collections.abc import Mapping
 
 from calcdoc.format import VALUE_UNITS, eng
-from calcdoc.mna.formulation import Equation, Term
 from calcdoc.report.mathtext import tex_name
+from calcdoc.results import Equation, Term
 
 
 def tex_unknown(u: str) -> str:

@@ -597,8 +597,8 @@ def _section_method(ctx: _Ctx) -> list[Flowable]:
     if d.references:
         out += [sub("References")]
         out += [_p(f"[{i}]&nbsp; " + _t(a), ctx) for i, a in enumerate(d.references, 1)]
-    from calcdoc.mna.solve import DENSE_LIMIT, EXACT_LIMIT
-
+    limits = ctx.results.cases[0].solution.limits
+    EXACT_LIMIT, DENSE_LIMIT = limits["exact"], limits["dense"]  # noqa: N806
     out += [
         sub("Method"),
         _p(_t(METHOD.format(exact=EXACT_LIMIT)), ctx),
@@ -648,7 +648,7 @@ def _section_inputs(ctx: _Ctx) -> list[Flowable]:
                 if t.minus == t.plus
                 else f"−{float(t.minus) * 100:g} / +{float(t.plus) * 100:g} %"
             )
-        rows.append((e.name, e.kind.plain_name + ctrl, f"{e.nodes[0]} → {e.nodes[1]}",
+        rows.append((e.name, e.kind.words + ctrl, f"{e.nodes[0]} → {e.nodes[1]}",
                      val + (f"\n= {expr}" if expr else ""), tol, _rating_text(e), e.description or ""))  # fmt: skip
     out.append(_table(ctx, ["Element", "Type", "Nodes a → b", "Value", "Tolerance", "Rating", "Description"],
                       rows, [0.8, 1.5, 1.1, 1.3, 0.95, 1.1, 2.1],
@@ -863,8 +863,15 @@ def _section_solution(ctx: _Ctx) -> list[Flowable]:
     for c in ctx.results.cases:
         net, br, s = c.netlist, c.branches, c.solution
         out.append(sub(f"Case: {c.name}"))
-        out.append(_p(_t(f"{len(s.unknowns)} unknowns solved by {s.method}; residual ‖A·x − z‖∞ = {s.residual:.3g}; "
-                         f"condition number {s.condition:.3g}."), ctx, "small"))  # fmt: skip
+        if s.exact is not None:
+            how = "exact: no rounding, so no residual or condition number"
+        else:
+            how = (f"relative residual {s.residual:.1e}, condition number {s.condition:.3g} "
+                   f"after equilibration, estimated relative error {s.error_estimate:.1e} after "
+                   f"{s.refinement_steps} refinement steps")  # fmt: skip
+        out.append(
+            _p(_t(f"{len(s.unknowns)} unknowns solved by {s.method} ({how})."), ctx, "small")
+        )
         for w in s.warnings:
             out.append(
                 _p(
@@ -1254,7 +1261,7 @@ def _attach(pdf: bytes, results) -> bytes:
     """Embed the input file and the results JSON; set the document-info keys."""
     from pypdf import PdfReader, PdfWriter
 
-    from calcdoc.results import results_document
+    from calcdoc.results_json import results_document
 
     p = results.project
     name = Path(p.path).name or "project.toml"

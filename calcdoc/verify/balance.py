@@ -7,12 +7,9 @@ solution rather than restate it.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 
-from calcdoc.mna.branches import Branches
-from calcdoc.mna.netlist import Netlist
+from calcdoc.results import Branches, Ledger, Loop, LoopCheck, Netlist
 
 LOOP_LISTING_LIMIT = 3000  # elements; above it loops are reported by chord only
 
@@ -23,7 +20,6 @@ def kcl_residuals(net: Netlist, br: Branches) -> np.ndarray:
     The reference entry is included for completeness; every entry is zero
     up to rounding for a correct solution.
 
-    >>> from calcdoc.mna.netlist import Netlist
     >>> from calcdoc.mna.solve import solve
     >>> from calcdoc.mna.branches import branches
     >>> net = Netlist(("gnd", "in", "out"), ("V1", "R1", "R2"),
@@ -33,44 +29,15 @@ def kcl_residuals(net: Netlist, br: Branches) -> np.ndarray:
     [0.0, 0.0, 0.0]
     """
     n = len(net.nodes)
+    if br.exact_current is not None:  # exact path: the sums are exact too
+        sums = [0] * n
+        for a, b, i in zip(net.a.tolist(), net.b.tolist(), br.exact_current, strict=True):
+            sums[a] += i
+            sums[b] -= i
+        return np.array([float(v) for v in sums])
     out = np.bincount(net.a, weights=br.current, minlength=n)
     inn = np.bincount(net.b, weights=br.current, minlength=n)
     return out - inn
-
-
-@dataclass(frozen=True)
-class Loop:
-    """One fundamental loop: the chord, then the tree path back.
-
-    ``elements`` and ``signs``: +1 where the loop runs through the element
-    from its node a to its node b, −1 against.
-    """
-
-    chord: str
-    elements: tuple[str, ...]
-    signs: tuple[int, ...]
-    sum: float
-    terms: tuple[float, ...]
-
-
-@dataclass(frozen=True)
-class LoopCheck:
-    """KVL over the fundamental loops.
-
-    ``loops`` lists every loop with its terms when ``listed``; for large
-    circuits it is empty and ``chords`` / ``sums`` give each loop's closing
-    element and its sum (V).
-    """
-
-    loops: tuple[Loop, ...]
-    listed: bool
-    max_abs_sum: float
-    chords: tuple[str, ...] = ()
-    sums: tuple[float, ...] = ()
-
-    @property
-    def count(self) -> int:
-        return len(self.loops) if self.listed else len(self.chords)
 
 
 def _bfs(net: Netlist, n: int) -> tuple[np.ndarray, np.ndarray]:
@@ -200,21 +167,6 @@ def kvl_loops(net: Netlist, br: Branches) -> LoopCheck:
         loops.append(Loop(net.names[c], names, tuple(signs), total, terms))
     worst = max((abs(lp.sum) for lp in loops), default=0.0)
     return LoopCheck(tuple(loops), listed, worst)
-
-
-@dataclass(frozen=True)
-class Ledger:
-    """Power balance (W): absorbed by, delivered by, and the imbalance."""
-
-    absorbed: float
-    delivered: float
-    imbalance: float
-    by_element: tuple[tuple[str, float], ...]
-
-    @property
-    def relative(self) -> float:
-        scale = max(self.absorbed, self.delivered)
-        return abs(self.imbalance) / scale if scale else 0.0
 
 
 def power_ledger(net: Netlist, br: Branches) -> Ledger:

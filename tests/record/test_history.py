@@ -1,4 +1,4 @@
-"""Tests for calcdoc.record.history.
+"""Tests for calcdoc.model.history.
 
 The ordering rule (letters A < B < ... < Z < AA, numbers numerically, drafts
 by letter before numbered issues) is the usual drawing-register convention
@@ -14,7 +14,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import calcdoc
-from calcdoc.record.history import history_findings, revision_key, same_revision_warning
+from calcdoc.model.history import history_findings, revision_key, same_revision_warning
 
 DEMO = Path(__file__).resolve().parents[2] / "projects" / "sensor_supply.toml"
 

@@ -23,7 +23,7 @@ PROJECTS = sorted((ROOT / "projects").glob("*.toml"))
 @pytest.fixture(scope="module")
 def built():
     out = {}
-    from calcdoc.analysis.pipeline import analyse
+    from calcdoc.pipeline import analyse
 
     for path in PROJECTS:
         results = analyse(calcdoc.load(path), closed_form=True)
@@ -127,7 +127,7 @@ def test_every_font_is_embedded(built):
 
 def test_two_builds_are_byte_identical(built):
     results, package = built["sensor_supply"]
-    from calcdoc.analysis.pipeline import analyse
+    from calcdoc.pipeline import analyse
 
     again = build_package(
         analyse(calcdoc.load(ROOT / "projects" / "sensor_supply.toml"), closed_form=True)

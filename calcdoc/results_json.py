@@ -1,0 +1,110 @@
+"""The JSON results object (design.md section 6), from results alone.
+
+Every number is a plain float in SI units; no NaN or infinity ever
+appears: :func:`finite` replaces what a float cannot hold with ``None`` and
+:func:`results_document` asserts the whole object is finite.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from calcdoc import __version__
+from calcdoc.results import CaseResult, Results
+
+
+def _f(x: Any) -> float | None:
+    if x is None:
+        return None
+    v = float(x)
+    return v if math.isfinite(v) else None
+
+
+def finite(obj: Any) -> Any:
+    """The same object with every non-finite float replaced by None."""
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    if isinstance(obj, dict):
+        return {k: finite(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [finite(v) for v in obj]
+    return obj
+
+
+def case_document(r: CaseResult) -> dict[str, Any]:
+    """The JSON object of one case (design.md section 6)."""
+    net, br = r.netlist, r.branches
+    nodes = dict(zip(net.nodes, br.node_voltage.tolist(), strict=True))
+    elements = {
+        name: {"voltage": v, "current": i, "power": p}
+        for name, v, i, p in zip(
+            net.names, br.voltage.tolist(), br.current.tolist(), br.power.tolist(), strict=True
+        )
+    }
+    kcl = dict(zip(net.nodes[1:], r.kcl[1:].tolist(), strict=True))
+    if r.kvl.listed:
+        kvl = [{"loop": list(lp.elements), "sum": lp.sum} for lp in r.kvl.loops]
+    else:
+        kvl = [{"chord": c, "sum": v} for c, v in zip(r.kvl.chords, r.kvl.sums, strict=True)]
+    return {
+        "name": r.name,
+        "nodes": nodes,
+        "elements": elements,
+        "power": {
+            "absorbed": r.ledger.absorbed,
+            "delivered": r.ledger.delivered,
+            "imbalance": r.ledger.imbalance,
+        },
+        "kcl": kcl,
+        "kvl": kvl,
+        "checks": [
+            {
+                "id": c.id,
+                "subject": c.subject,
+                "quantity": c.quantity,
+                "value": c.value,
+                "limit": c.limit,
+                "utilization": _f(c.utilization),
+                "margin": c.margin,
+                "bound": c.bound,
+                "status": c.status,
+            }
+            for c in r.checks
+        ],
+        "solver": {
+            "method": r.solution.method,
+            "unknowns": len(r.solution.unknowns),
+            "residual": _f(r.solution.residual),
+            "condition": _f(r.solution.condition),
+            "error_estimate": _f(r.solution.error_estimate),
+            "refinement_steps": r.solution.refinement_steps,
+            "kcl_max": float(np.max(np.abs(r.kcl))) if len(r.kcl) else 0.0,
+            "kvl_max": r.kvl.max_abs_sum,
+            "warnings": list(r.solution.warnings),
+        },
+    }
+
+
+def results_document(results: Results) -> dict[str, Any]:
+    """The whole ``calcdoc solve --json`` object."""
+    p = results.project
+    cases = [case_document(r) for r in results.cases]
+    for stage, data in results.extra.items():
+        per_case = getattr(data, "per_case_json", None)
+        if per_case is not None:
+            for doc, extra in zip(cases, per_case(), strict=True):
+                if extra is not None:
+                    doc[stage] = extra
+    out: dict[str, Any] = {
+        "tool": {"name": "calcdoc", "version": __version__},
+        "input": {"path": p.path, "sha256": p.sha256},
+        "cases": cases,
+    }
+    for stage, data in results.extra.items():
+        whole = getattr(data, "project_json", None)
+        if whole is not None:
+            out[stage] = whole()
+    return finite(out)
