@@ -21,7 +21,12 @@ def resistor_net(edges, source=("a", "b"), current="1 A"):
         f'value = "{current}"',
     ]
     for k, (u, v, r) in enumerate(edges):
-        lines += [f"[elements.R{k}]", 'type = "resistor"', f'nodes = ["{u}", "{v}"]', f'value = "{r} ohm"']
+        lines += [
+            f"[elements.R{k}]",
+            'type = "resistor"',
+            f'nodes = ["{u}", "{v}"]',
+            f'value = "{r} ohm"',
+        ]
     return "\n".join(lines)
 
 
