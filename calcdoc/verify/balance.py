@@ -12,6 +12,7 @@ import numpy as np
 from calcdoc.results import Branches, Ledger, Loop, LoopCheck, Netlist
 
 LOOP_LISTING_LIMIT = 3000  # elements; above it loops are reported by chord only
+SMALL = 2000  # elements: up to this, the spanning tree in plain Python (no scipy import)
 
 
 def kcl_residuals(net: Netlist, br: Branches) -> np.ndarray:
@@ -42,7 +43,7 @@ def kcl_residuals(net: Netlist, br: Branches) -> np.ndarray:
 
 def _bfs(net: Netlist, n: int) -> tuple[np.ndarray, np.ndarray]:
     """Breadth-first order from the reference and each node's predecessor (-9999 for none)."""
-    if len(net.a) > 2000:
+    if len(net.a) > SMALL:
         from scipy.sparse import coo_matrix
         from scipy.sparse.csgraph import breadth_first_order
 

@@ -74,3 +74,14 @@ def test_ledger_tellegen(make_project):
     r = calcdoc.solve(make_project(grid(4))).cases[0]
     assert r.ledger.absorbed == pytest.approx(r.ledger.delivered, rel=1e-12)
     assert r.ledger.delivered == pytest.approx(-float(r.branches.power[0]))
+
+
+def test_spanning_tree_paths_agree_above_the_small_size(make_project, monkeypatch):
+    # the scipy breadth-first tree (used above SMALL elements) and the plain one
+    # give loops of the same count (E − N + 1) and sums at rounding level
+    p = make_project(grid(8))
+    plain = calcdoc.solve(p).cases[0].kvl
+    monkeypatch.setattr(balance, "SMALL", 0)
+    big = calcdoc.solve(p).cases[0].kvl
+    assert big.count == plain.count == len(p.elements) - len(p.nodes) + 1
+    assert big.max_abs_sum <= 1e-12 and plain.max_abs_sum <= 1e-12
