@@ -75,7 +75,10 @@ def solve_case(
         exc.case = name  # type: ignore[attr-defined]
         raise
     br = branches(net, sol)
-    symbols = dict(zip((s.name for s in structure(net).symbols), structure(net).p, strict=True))
+    st = structure(net)
+    # the symbols' values, for the printed equations and the closed form (kept when they are)
+    keep = sol.formulation is not None
+    symbols = dict(zip((s.name for s in st.symbols), st.p, strict=True)) if keep else {}
     return CaseResult(
         name, case, vals, net, sol, br, kcl_residuals(net, br), kvl_loops(net, br),
         power_ledger(net, br), design_checks(project, net, br), symbols,

@@ -110,35 +110,52 @@ def diagnose(st: Structure, A: tuple[np.ndarray, np.ndarray, np.ndarray]) -> Non
 
 
 def _signs(st: Structure) -> None:
+    """Every number inside the sign its key allows (the element table's ``sign`` column)."""
     from calcdoc.model.elements import KINDS
 
     net = st.net
     m = len(net.names)
-    for k, sym in enumerate(st.symbols):
-        j = k if k < m else net.names.index(sym.element)
-        key = KINDS[net.types[j]].key(sym.key)
-        if key.sign == "any":
-            continue
-        v = st.p[k]
-        if v > 0 or (v == 0 and key.sign == "nonnegative"):
-            continue
-        name = net.names[j]
-        if net.types[j] == "resistor" and v == 0:
-            raise SingularCircuitError(
-                "zero-ohm resistor",
-                f"{name} has zero resistance, which has no conductance to stamp; "
-                "join its nodes or model it as a 0 V voltage source",
-                (name,),
-            )
-        if key.unit == "Ω":
-            raise SingularCircuitError(
-                "negative resistance", f"{name} has a negative {key.words or key.name}", (name,)
-            )
+    p = st.p_float
+    types = np.array(net.types)
+    more = {(j, key): m + k for k, (j, key, _) in enumerate(net.more)}
+    for t in sorted(set(net.types)):
+        J = np.flatnonzero(types == t)
+        for key in KINDS[t].keys:
+            if key.sign == "any":
+                continue
+            if key is KINDS[t].main:
+                idx = J
+            else:
+                pairs = [
+                    (int(j), more[(int(j), key.name)]) for j in J if (int(j), key.name) in more
+                ]
+                if not pairs:
+                    continue
+                J, idx = (np.array(x, dtype=np.int64) for x in zip(*pairs, strict=True))
+            bad = (p[idx] <= 0) if key.sign == "positive" else (p[idx] < 0)
+            if bad.any():
+                k = int(np.flatnonzero(bad)[0])
+                _sign_fault(net, int(J[k]), key, st.p[int(idx[k])])
+
+
+def _sign_fault(net, j: int, key, v) -> None:
+    name = net.names[j]
+    if net.types[j] == "resistor" and v == 0:
         raise SingularCircuitError(
-            "invalid value",
-            f"{name}: {key.words or key.name} must be {key.sign}, found {float(v):g}",
+            "zero-ohm resistor",
+            f"{name} has zero resistance, which has no conductance to stamp; "
+            "join its nodes or model it as a 0 V voltage source",
             (name,),
         )
+    if key.unit == "Ω":
+        raise SingularCircuitError(
+            "negative resistance", f"{name} has a negative {key.words or key.name}", (name,)
+        )
+    raise SingularCircuitError(
+        "invalid value",
+        f"{name}: {key.words or key.name} must be {key.sign}, found {float(v):g}",
+        (name,),
+    )
 
 
 def _voltage_loops(st: Structure, A) -> None:

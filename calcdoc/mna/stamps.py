@@ -28,6 +28,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from fractions import Fraction
+from functools import cached_property
 
 import numpy as np
 
@@ -100,9 +101,8 @@ class Structure:
         Column of each element's current unknown (−1 where it has none).
     n : int
         Unknowns: node voltages, then element currents.
-    symbols : tuple of Symbol
-        The parameters ``p``: element main values (index = element index),
-        then further keys.
+    more_symbols : tuple of Symbol
+        The parameters beyond the element main values (see :attr:`symbols`).
     p : tuple of Number
         Their values (exact where given exactly).
     A, z : Triplets
@@ -120,7 +120,7 @@ class Structure:
     mode: np.ndarray
     col: np.ndarray
     n: int
-    symbols: tuple[Symbol, ...]
+    more_symbols: tuple[Symbol, ...]
     p: tuple
     A: Triplets
     z: Triplets
@@ -135,7 +135,19 @@ class Structure:
 
     @property
     def P(self) -> int:
-        return len(self.symbols)
+        return len(self.p)
+
+    @cached_property
+    def symbols(self) -> tuple[Symbol, ...]:
+        """The parameters ``p``: element main values (index = element index), then further keys."""
+        main = {t: KINDS[t].main for t in set(self.net.types)}
+        return (
+            *(
+                Symbol(name, name, main[t].name, main[t].unit)
+                for name, t in zip(self.net.names, self.net.types, strict=True)
+            ),
+            *self.more_symbols,
+        )
 
     def unknowns(self) -> tuple[str, ...]:
         cur = np.flatnonzero(self.col >= 0)
@@ -219,25 +231,18 @@ class _Emitter:
         return t.take(order)
 
 
-def _modes(
-    net: Netlist, laws: tuple[Law, ...], p_float: np.ndarray, more_index: dict
-) -> np.ndarray:
-    m = len(net.names)
-    controls = np.zeros(m, dtype=bool)
-    if net.control_element:
-        controls[list(net.control_element.values())] = True
-    mode = np.full(m, OWN, dtype=np.int8)
-    for j, law in enumerate(laws):
-        if controls[j]:
-            continue
-        if law.conductance:
-            key = law.i.key  # type: ignore[union-attr]
-            k = j if key == KINDS[net.types[j]].main.name else more_index[(j, key)]
-            if p_float[k] != 0:  # a zero resistance keeps its current as an unknown
-                mode[j] = CONDUCTANCE
-        elif law.current_defined:
-            mode[j] = CURRENT
-    return mode
+def _split(code: np.ndarray, count: int) -> list[np.ndarray]:
+    """Element indices of each code, in element order."""
+    order = np.argsort(code, kind="stable")
+    bounds = np.searchsorted(code[order], np.arange(count + 1))
+    return [order[bounds[c] : bounds[c + 1]] for c in range(count)]
+
+
+def _key_index(net: Netlist, J: np.ndarray, key: str, more_index: dict) -> np.ndarray:
+    """Parameter index of ``key`` for each element of J (all of one type)."""
+    if key == KINDS[net.types[int(J[0])]].main.name:
+        return J
+    return np.array([more_index[(int(j), key)] for j in J], dtype=np.int64)
 
 
 def structure(net: Netlist) -> Structure:
@@ -270,25 +275,47 @@ def _structure(net: Netlist) -> Structure:
     absent_by_el: dict[int, set[str]] = {}
     for j, k in net.absent:
         absent_by_el.setdefault(j, set()).add(k)
-    laws = tuple(
-        KINDS[t].law(net.state(j), frozenset(absent_by_el.get(j, ())))
-        for j, t in enumerate(net.types)
-    )
+    # one law per distinct (type, state, absent keys): elements share them
+    states = net.states or ("",) * m
+    law_of: dict[tuple, int] = {}
+    law_list: list[Law] = []
+    kinds_of: list[str | None] = []
+    code = np.empty(m, dtype=np.int64)
+    for j, (t, stt) in enumerate(zip(net.types, states, strict=True)):
+        key = (t, stt, frozenset(absent_by_el[j])) if j in absent_by_el else (t, stt)
+        c = law_of.get(key)
+        if c is None:
+            kind = KINDS[t]
+            c = law_of[key] = len(law_list)
+            law_list.append(kind.law(stt, key[2] if len(key) > 2 else frozenset()))
+            kinds_of.append(kind.control)
+        code[j] = c
+    laws = tuple(law_list[c] for c in code.tolist())
     # parameters: main values (index j), then further keys
-    symbols = [
-        Symbol(name, name, KINDS[t].main.name, KINDS[t].main.unit)
-        for name, t in zip(net.names, net.types, strict=True)
-    ]
     p: list = list(net.values)
     more_index: dict[tuple[int, str], int] = {}
+    more_symbols = []
     for j, key, v in net.more:
         kt = KINDS[net.types[j]].key(key)
-        more_index[(j, key)] = len(symbols)
-        symbols.append(Symbol(f"{kt.symbol or key}({net.names[j]})", net.names[j], key, kt.unit))
+        more_index[(j, key)] = m + len(more_symbols)
+        more_symbols.append(
+            Symbol(f"{kt.symbol or key}({net.names[j]})", net.names[j], key, kt.unit)
+        )
         p.append(v)
-    P = len(symbols)
-    p_float = np.array([float(v) for v in p], dtype=float)
-    mode = _modes(net, laws, p_float, more_index)
+    P = m + len(more_symbols)
+    p_float = np.concatenate([net.floats(), np.array([float(v) for v in p[m:]], dtype=float)])
+    controls = np.zeros(m, dtype=bool)
+    if net.control_element:
+        controls[list(net.control_element.values())] = True
+    mode = np.full(m, OWN, dtype=np.int8)
+    members_of = _split(code, len(law_list))
+    for c, law in enumerate(law_list):
+        J = members_of[c]
+        if law.conductance:
+            k = _key_index(net, J, law.i.key, more_index)  # type: ignore[union-attr]
+            mode[J[(p_float[k] != 0) & ~controls[J]]] = CONDUCTANCE
+        elif law.current_defined:
+            mode[J[~controls[J]]] = CURRENT
     own = np.flatnonzero(mode == OWN)
     col = np.full(m, -1, dtype=np.int64)
     col[own] = n_nodes - 1 + np.arange(len(own))
@@ -303,12 +330,13 @@ def _structure(net: Netlist) -> Structure:
         cc[j] = col[k]
     A, z, cur, lv = (_Emitter(P) for _ in range(4))
     fixes = np.zeros(m, dtype=bool)
-    groups: dict[tuple[Law, int, str | None], list[int]] = {}
-    for j, law in enumerate(laws):
-        groups.setdefault((law, int(mode[j]), KINDS[net.types[j]].control), []).append(j)
+    groups: list[tuple[Law, int, str | None, np.ndarray]] = []
+    for c, law in enumerate(law_list):  # one group per law code (one type) and mode
+        J = members_of[c]
+        for md in np.unique(mode[J]).tolist():
+            groups.append((law, md, kinds_of[c], J[mode[J] == md]))
     group_list = []
-    for (law, md, control), members in groups.items():
-        J = np.array(members, dtype=np.int64)
+    for law, md, control, J in groups:
         param = _param_index(net, J, law, more_index)
         group_list.append(Group(law, md, control, J, param))
         aj, bj, cj = a[J], b[J], col[J]
@@ -370,7 +398,7 @@ def _structure(net: Netlist) -> Structure:
             lv.add(J, aj, 1.0, one, one, J)
             lv.add(J, bj, -1.0, one, one, J)
     return Structure(
-        net, laws, mode, col, n, tuple(symbols), tuple(p),
+        net, laws, mode, col, n, tuple(more_symbols), tuple(p),
         A.result(), z.result(), cur.result(), lv.result(), fixes, tuple(group_list),
     )  # fmt: skip
 
@@ -378,14 +406,7 @@ def _structure(net: Netlist) -> Structure:
 def _param_index(
     net: Netlist, J: np.ndarray, law: Law, more_index: dict[tuple[int, str], int]
 ) -> dict[str, np.ndarray]:
-    out: dict[str, np.ndarray] = {}
-    main = KINDS[net.types[int(J[0])]].main.name
-    for key in law.number_keys():
-        if key == main:
-            out[key] = J
-        else:
-            out[key] = np.array([more_index[(int(j), key)] for j in J], dtype=np.int64)
-    return out
+    return {key: _key_index(net, J, key, more_index) for key in law.number_keys()}
 
 
 # --------------------------------------------------------------------------
@@ -498,9 +519,14 @@ def law_residual(st: Structure, x: np.ndarray, p: np.ndarray) -> np.ndarray:
 def extended_parameters(st: Structure) -> np.ndarray:
     """The parameters in numpy's extended precision (exact fractions divided there)."""
     out = np.empty(st.P, dtype=np.longdouble)
+    seen: dict = {}
     for k, v in enumerate(st.p):
-        if isinstance(v, Fraction):
-            out[k] = np.longdouble(str(v.numerator)) / np.longdouble(str(v.denominator))
-        else:
-            out[k] = np.longdouble(v)
+        x = seen.get(v)
+        if x is None:
+            if isinstance(v, Fraction):
+                x = np.longdouble(str(v.numerator)) / np.longdouble(str(v.denominator))
+            else:
+                x = np.longdouble(v)
+            seen[v] = x
+        out[k] = x
     return out

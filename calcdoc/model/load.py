@@ -502,8 +502,24 @@ def _elements(
     out: list[Element] = []
     kinds_list = list(KINDS)
     allowed_of = {t: frozenset(element_keys(k)) for t, k in KINDS.items()}
+    # the common plain element (type, nodes and its one number) takes a short path
+    plain_keys = {
+        t: frozenset(("type", "nodes", k.main.name))
+        for t, k in KINDS.items()
+        if len(k.keys) == 1 and not k.control and not k.states
+    }
+    literal: dict[tuple[str, str], tuple[Quantity, Node]] = {}
     good_nodes: set[str] = set()
+    name_ok = NAME_RE.fullmatch
     for name, spec in raw.items():
+        if isinstance(spec, dict) and name_ok(name):
+            etype = spec.get("type")
+            plain = plain_keys.get(etype) if isinstance(etype, str) else None
+            if plain is not None and spec.keys() == plain:
+                e = _plain_element(name, spec, etype, literal, good_nodes)
+                if e is not None:
+                    out.append(e)
+                    continue
         path = f"elements.{name}"
         if not _name_ok(name, path, faults, "element"):
             continue
@@ -527,6 +543,37 @@ def _elements(
         if element is not None:
             out.append(element)
     return out
+
+
+def _plain_element(name: str, spec: dict, etype: str, literal: dict, good_nodes: set[str]):
+    """An element with only ``type``, ``nodes`` and a literal main value, when all is well.
+
+    Returns None whenever anything needs a closer look (the full path then
+    reports it); the literal values seen are kept in ``literal``.
+    """
+    nodes = spec["nodes"]
+    if not (isinstance(nodes, list) and len(nodes) == 2):
+        return None
+    a, b = nodes
+    if a == b or not (_node_ok(a, good_nodes) and _node_ok(b, good_nodes)):
+        return None
+    kind = KINDS[etype]
+    key = kind.main
+    text = spec[key.name]
+    if not isinstance(text, str):
+        return None
+    q = literal.get((text, key.name))
+    if q is None:
+        scratch = _Faults()
+        vexpr = _value_expr(text, "", scratch, key.dimension)
+        if vexpr is None or not isinstance(vexpr[1], Literal):
+            return None
+        q = _resolved(vexpr, "", scratch, key.dimension, {}, ())
+        if q is None or scratch.items:
+            return None
+        literal[(text, key.name)] = q = (q, vexpr[1])
+    quantity, expr = q
+    return Element(name, etype, (a, b), quantity.magnitude, text, expr)
 
 
 def _element_keys(spec, kind, allowed, path: str, faults: _Faults) -> None:

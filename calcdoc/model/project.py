@@ -9,6 +9,7 @@ from __future__ import annotations
 import datetime as _dt
 from dataclasses import dataclass, field
 from fractions import Fraction
+from functools import cached_property
 
 from calcdoc.model.elements import KINDS, ElementType
 from calcdoc.model.expressions import Node
@@ -236,7 +237,7 @@ class Project:
                 return e
         raise KeyError(name)
 
-    @property
+    @cached_property
     def nodes(self) -> tuple[str, ...]:
         """Every node name, the reference first, then in order of appearance."""
         seen = {self.reference: None}

@@ -112,6 +112,14 @@ def design_checks(project: Project, net: Netlist, br: Branches) -> tuple[Check, 
     """
     out: list[Check] = []
     for j, e in enumerate(project.elements):
+        r = e.rating
+        if (
+            r.power is None
+            and r.voltage is None
+            and r.current is None
+            and r.reverse_voltage is None
+        ):
+            continue
         for key, rating in RATINGS.items():
             if getattr(e.rating, key, None) is None:
                 continue
