@@ -195,6 +195,34 @@ def _signature_findings(report: SignatureReport, identity_wanted: bool) -> list[
             problem = s.problem or "it does not cover the file as signed."
             out.append(Finding("signature", FAIL, f"{problem} ({who})"))
     for s in report.signatures:
+        who = s.signer_name or "(unnamed)"
+        if s.certificate_problem is not None:
+            out.append(
+                Finding(
+                    "certificate",
+                    FAIL,
+                    f"The certificate of signature '{s.field_name}' may not sign this record: "
+                    f"{s.certificate_problem}.",
+                )
+            )
+        elif s.intact:
+            out.append(
+                Finding(
+                    "certificate",
+                    PASS,
+                    f"The certificate of {who} was valid at the signing time and its key "
+                    "usage allows signing documents.",
+                )
+            )
+        if s.certificate_note is not None:
+            out.append(
+                Finding(
+                    "certificate",
+                    NOTE,
+                    s.certificate_note[:1].upper() + s.certificate_note[1:] + ".",
+                )
+            )
+    for s in report.signatures:
         if not report.identity_checked:
             continue
         if s.trusted:
@@ -212,7 +240,7 @@ def _signature_findings(report: SignatureReport, identity_wanted: bool) -> list[
                     "identity",
                     FAIL,
                     f"The signer {s.signer_name or '(unnamed)'} of '{s.field_name}' is not "
-                    "trusted: the certificate does not chain to any given trusted certificate.",
+                    f"trusted: the certificate {s.trust_problem or 'cannot be checked'}.",
                 )
             )
     if not report.identity_checked:

@@ -7,7 +7,7 @@ project and signed with ``calcdoc.record.signing.sign_package``.
 from __future__ import annotations
 
 import pytest
-from record_helpers import DEMO_PROJECT, KEY_PASSWORD, SIGNER_NAME, STAMP_FONT, RecordPki
+from record_helpers import DEMO_PROJECT, KEY_PASSWORD, STAMP_FONT, RecordPki
 
 import calcdoc
 
@@ -37,7 +37,6 @@ def signed_package(built_package, record_pki: RecordPki) -> bytes:
         KEY_PASSWORD,
         page=page,
         box=box,
-        signer_label=f"{SIGNER_NAME}, checker",
         font_path=STAMP_FONT,
         reason="Checked",
     )

@@ -131,8 +131,10 @@ def test_signed_package_verifies_with_trusted_ca(signed_package, record_pki) -> 
     assert status.coverage == SignatureCoverageLevel.ENTIRE_FILE
     v = verify_package(signed_package, [record_pki.ca_pem_path.read_bytes()])
     assert v.ok and v.signed
-    assert [f.topic for f in v.findings] == ["signature", "identity", "input", "results"]
-    assert [f.status for f in v.findings] == ["pass", "pass", "pass", "pass"]
+    assert [f.topic for f in v.findings] == [
+        "signature", "certificate", "identity", "input", "results"
+    ]  # fmt: skip
+    assert [f.status for f in v.findings] == ["pass"] * 5
     assert SIGNER_NAME in v.findings[0].message
     assert v.input_sha256 == DEMO_SHA
 
