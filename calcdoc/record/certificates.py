@@ -20,9 +20,10 @@ signing time the signature states). The rules:
   vendors). A certificate for TLS servers or clients only, or for code
   signing or time stamping only, may not sign a record.
 - **Trust** (only when trusted certificates are given): the certificate
-  chains to one of them, every certificate on the path valid at the signing
-  time (path validation by ``pyhanko_certvalidator``, offline; revocation is
-  not checked because nothing is fetched).
+  chains to one of them, every certificate on the path, the trusted one
+  included, valid at the signing time (path validation by
+  ``pyhanko_certvalidator``, offline; revocation is not checked because
+  nothing is fetched).
 
 Everything here is pure.
 """
@@ -200,7 +201,7 @@ def chain_problem(
         cert, intermediate_certs=list(others), validation_context=context
     )
     try:
-        asyncio.run(validator.async_validate_path())
+        path = asyncio.run(validator.async_validate_path())
     except PathBuildingError:
         return "does not chain to any of the given trusted certificates"
     except (ExpiredError, NotYetValidError) as exc:
@@ -211,6 +212,16 @@ def chain_problem(
         return f"its chain to the trusted certificate is not valid: {_sentence(exc)}"
     except Exception as exc:  # the validator raises assorted types on odd certificates
         return f"its chain could not be validated: {_sentence(exc)}"
+    # RFC 5280 path validation does not test the trust anchor's own validity
+    # period; a trusted certificate that had lapsed by the signing time is
+    # refused here all the same.
+    for link in path.iter_certs(include_root=True):
+        problem = validity_problem(link, at)
+        if problem is not None:
+            return (
+                f"chains to {holder_name(link)}, whose certificate {problem}, before the "
+                f"signing time {_when(at)}"
+            )
     return None
 
 

@@ -381,3 +381,29 @@ def rewrite_printed_text(pdf: bytes, page: int) -> bytes:
     out = BytesIO()
     writer.write(out)
     return out.getvalue()
+
+
+def stamp_text(signed_pdf: bytes, page: int = 0) -> str:
+    """Text of the signature stamp on ``page``, extracted by pypdf from its appearance stream
+    drawn alone on a blank page."""
+    from pypdf import PdfReader, PdfWriter
+    from pypdf.generic import DictionaryObject, NameObject, StreamObject
+
+    reader = PdfReader(BytesIO(signed_pdf))
+    widget = next(
+        a.get_object() for a in reader.pages[page]["/Annots"] if a.get_object().get("/FT") == "/Sig"
+    )
+    appearance = widget["/AP"]["/N"].get_object()
+    x1, y1, x2, y2 = (float(v) for v in appearance["/BBox"])
+    writer = PdfWriter()
+    blank = writer.add_blank_page(width=abs(x2 - x1), height=abs(y2 - y1))
+    form = appearance.clone(writer)
+    blank[NameObject("/Resources")] = DictionaryObject(
+        {NameObject("/XObject"): DictionaryObject({NameObject("/Stamp"): form.indirect_reference})}
+    )
+    content = StreamObject()
+    content.set_data(b"q /Stamp Do Q")
+    blank.replace_contents(content)
+    out = BytesIO()
+    writer.write(out)
+    return PdfReader(out).pages[0].extract_text()
