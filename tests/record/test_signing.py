@@ -589,3 +589,44 @@ def test_key_password_from_environment_opens_the_key(pki: Pki, unsigned_pdf: byt
 def test_unreadable_trust_root_raises_trust_root_error(signed_pdf: bytes) -> None:
     with pytest.raises(TrustRootError, match="#1"):
         signature_findings(signed_pdf, [b"not a certificate"])
+
+
+# ---------------------------------------------------------------------------
+# Key messages through the command line (issue 13, item 13)
+# ---------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("case", "expected"),
+    [
+        ("missing", "the signing key file {key} does not exist"),
+        ("wrong password", "wrong password for the signing key {key}"),
+        (
+            "no password",
+            "the signing key {key} is protected by a password: set CALCDOC_KEY_PASSWORD",
+        ),
+        ("not a key", "the signing key {key} is not a PKCS#12 (.p12) file"),
+    ],
+)
+def test_build_sign_key_messages(
+    case: str, expected: str, pki: Pki, tmp_path: Path, monkeypatch, capsys
+) -> None:
+    from record_helpers import DEMO_PROJECT
+
+    from calcdoc.cli import main
+
+    key = {"missing": tmp_path / "absent.p12", "not a key": tmp_path / "notes.p12"}.get(
+        case, pki.p12_path
+    )
+    if case == "not a key":
+        key.write_bytes(b"")
+    monkeypatch.delenv(PASSWORD_ENV_VAR, raising=False)
+    if case == "wrong password":
+        monkeypatch.setenv(PASSWORD_ENV_VAR, "not the password")
+    out = tmp_path / "record.pdf"
+    code = main(["build", str(DEMO_PROJECT), "-o", str(out), "-q", "--sign", str(key)])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert err.count("\n") == 1 and expected.format(key=key) in err
+    assert "Traceback" not in err and "internal error" not in err
+    assert not out.exists()
