@@ -1,4 +1,4 @@
-"""Tests for calcdoc.record.package: reading earlier revisions and carrying one in a package.
+"""Tests for calcdoc.record.package (module named so that it does not clash with tests/report/test_package.py): reading earlier revisions and carrying one in a package.
 
 Outside references: pypdf reads the attachments back; the demo project file
 itself is the expected content.
