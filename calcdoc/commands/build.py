@@ -59,9 +59,8 @@ def _sign(pdf: bytes, box, key: Path, project, progress) -> bytes:
     try:
         password = key_password(os.environ, interactive=sys.stdin.isatty(), prompt=getpass.getpass)
         d = project.document
-        who = project.signoff.approved or project.signoff.checked or project.signoff.prepared
         return sign_package(
-            pdf, key, password, page=box[0], box=box[1], signer_label=who.name if who else "",
+            pdf, key, password, page=box[0], box=box[1],
             font_path=register_fonts().regular_path,
             reason=f"Calculation record {d.number} revision {d.revision}".strip(),
         )  # fmt: skip

@@ -1,9 +1,11 @@
 """``calcdoc verify PACKAGE [--trust CERT.pem ...] [--json]``.
 
-Exit 0 when no finding fails (an unsigned package passes when its embedded
-input and results check out and no ``--trust`` was given, and the report
-says plainly that it is not signed); 1 naming the first failure; 2 when the
-package or a trusted certificate cannot be read.
+Exit 0 when every finding passes (an unsigned package passes when its
+embedded input, results and pages check out and no ``--trust`` was given,
+and the report says plainly that it is not signed); 1 naming the first
+failure, or, when nothing failed but a check could not be made (the pages
+could not be compared with a rebuild), saying "NOT VERIFIED" and why; 2 when
+the package or a trusted certificate cannot be read.
 """
 
 from __future__ import annotations
@@ -14,7 +16,7 @@ from calcdoc.errors import CalcdocError, PackageError
 from calcdoc.record.signing import TrustRootError
 from calcdoc.record.verify import verify_package
 
-_MARK = {"pass": "PASS", "fail": "FAIL", "note": "NOTE"}
+_MARK = {"pass": "PASS", "fail": "FAIL", "note": "NOTE", "unchecked": "OPEN"}
 
 
 def _read(path: str, what: str) -> bytes:
@@ -49,6 +51,8 @@ def run(args, term) -> int:
         if failure is None:
             state = "VERIFIED" if result.signed else "VERIFIED (NOT SIGNED)"
             term.line(f"RESULT: {state}")
-        else:
+        elif failure.status == "fail":
             term.line(f"RESULT: FAILED: {failure.message}")
+        else:
+            term.line(f"RESULT: NOT VERIFIED: {failure.message}")
     return 0 if result.ok else 1

@@ -7,7 +7,12 @@ A package (see ``calcdoc build``) is a PDF that carries
 - the results object (``calcdoc.to_json``) as the attachment ``results.json``;
 - the SHA-256 of the input in the document-information key
   ``/CalcdocInputSHA256`` and on the cover, as the text line
-  ``SHA-256 of input: <64 lowercase hex digits>``.
+  ``SHA-256 of input: <64 lowercase hex digits>``;
+- when it was built with a comparison to an earlier revision, that
+  revision's project file as a further attachment, named by the
+  document-information key ``/CalcdocPrevious``, and the name the
+  comparison printed for it in ``/CalcdocPreviousPath`` (so that the
+  package can be rebuilt, see :mod:`calcdoc.record.rebuild`).
 
 Every function here is pure: it takes the bytes of the PDF (only
 :func:`baseline` reads a file, being a loader).
@@ -30,13 +35,19 @@ from calcdoc.model.project import Project
 __all__ = [
     "INPUT_KEY",
     "INPUT_SHA_KEY",
+    "PREVIOUS_KEY",
+    "PREVIOUS_NAME",
+    "PREVIOUS_PATH_KEY",
     "RESULTS_NAME",
+    "attach_previous",
     "baseline",
     "embedded_input",
+    "embedded_previous",
     "embedded_results",
     "is_pdf",
     "metadata_input_hash",
     "printed_input_hash",
+    "printed_text",
 ]
 
 INPUT_KEY = "/CalcdocInput"
@@ -47,6 +58,15 @@ INPUT_SHA_KEY = "/CalcdocInputSHA256"
 
 RESULTS_NAME = "results.json"
 """Attachment name of the results object."""
+
+PREVIOUS_KEY = "/CalcdocPrevious"
+"""Document-information key naming the attachment that holds the previous revision's input."""
+
+PREVIOUS_PATH_KEY = "/CalcdocPreviousPath"
+"""Document-information key holding the name the comparison gives the previous revision."""
+
+PREVIOUS_NAME = "previous-revision.toml"
+"""Attachment name of the previous revision's input (a digit is added if the input has it)."""
 
 _PRINTED_HASH = re.compile(r"SHA-256\s+of\s+input:\s*([0-9a-f]{64})")
 
@@ -167,10 +187,92 @@ def embedded_results(pdf: bytes) -> dict[str, Any]:
     return doc
 
 
+def embedded_previous(pdf: bytes) -> tuple[str, bytes] | None:
+    """The previous revision's input embedded in a package, if it carries one.
+
+    Returns
+    -------
+    tuple of (str, bytes) or None
+        The name the comparison gave the previous revision (its path when
+        the package was built) and the project file's bytes; None when the
+        package carries no previous revision.
+
+    Raises
+    ------
+    PackageError
+        If the data is not a readable PDF, or the document information
+        names a previous revision that is not attached.
+    """
+    info = _info(pdf)
+    name = info.get(PREVIOUS_KEY)
+    if name is None:
+        return None
+    source = _single(_attachments(pdf), str(name))
+    return str(info.get(PREVIOUS_PATH_KEY) or name), source
+
+
+def attach_previous(pdf: bytes, input_name: str, label: str, source: bytes) -> bytes:
+    """Attach the previous revision's input to a built package (deterministically).
+
+    Parameters
+    ----------
+    pdf : bytes
+        The package as built.
+    input_name : str
+        Attachment name of the package's own input (never reused).
+    label : str
+        The name the comparison printed for the previous revision.
+    source : bytes
+        The previous revision's project file.
+
+    Returns
+    -------
+    bytes
+        The package with one more attachment and the two document-information keys.
+    """
+    from pypdf import PdfReader, PdfWriter
+
+    name, n = PREVIOUS_NAME, 1
+    while name == input_name:
+        name = f"previous-revision-{n}.toml"
+        n += 1
+    with _quiet_pypdf():
+        writer = PdfWriter(clone_from=PdfReader(BytesIO(pdf)))
+        writer.add_attachment(name, source)
+        meta = dict(writer.metadata or {})
+        meta.update({PREVIOUS_KEY: name, PREVIOUS_PATH_KEY: label})
+        writer.add_metadata(meta)
+        out = BytesIO()
+        writer.write(out)
+    return out.getvalue()
+
+
 def metadata_input_hash(pdf: bytes) -> str | None:
     """The input SHA-256 recorded in the document information, if any (lowercase hex)."""
     value = _info(pdf).get(INPUT_SHA_KEY)
     return None if value is None else str(value).strip().lower()
+
+
+def printed_text(pdf: bytes, pages: int) -> list[str]:
+    """The extracted text of the first ``pages`` pages (the last ``-pages`` when negative).
+
+    Pages whose text cannot be extracted give an empty string.
+
+    Raises
+    ------
+    PackageError
+        If the data is not a readable PDF.
+    """
+    reader = _reader(pdf)
+    chosen = reader.pages[:pages] if pages >= 0 else reader.pages[pages:]
+    out = []
+    for page in chosen:
+        try:
+            with _quiet_pypdf():
+                out.append(page.extract_text() or "")
+        except Exception:  # pypdf raises assorted types on odd content
+            out.append("")
+    return out
 
 
 def printed_input_hash(pdf: bytes) -> str | None:
@@ -229,12 +331,17 @@ def baseline(path: str | Path) -> Project:
     from calcdoc.errors import Fault
 
     p = Path(path)
+    expected = "expected a package (.pdf) or a project file (.toml)"
     try:
+        if p.exists() and not p.is_file():
+            raise ProjectError([Fault("", f"not a regular file: {expected}")], str(path))
         data = p.read_bytes()
     except OSError as exc:
-        raise ProjectError(
-            [Fault("", f"cannot read the file: {exc.strerror or exc}")], str(path)
-        ) from None
+        reason = exc.strerror or "read error"
+        raise ProjectError([Fault("", f"cannot read the file: {reason}")], str(path)) from None
+    if not data.strip():
+        what = "empty (0 bytes)" if not data else "blank (only white space)"
+        raise ProjectError([Fault("", f"the file is {what}: {expected}")], str(path))
     if not is_pdf(data):
         return calcdoc.loads(data, str(path))
     try:

@@ -20,11 +20,12 @@ import hashlib
 import logging
 from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
-from datetime import datetime
+from datetime import datetime, timezone
 from io import BytesIO
 from pathlib import Path
 
 from asn1crypto import pem
+from asn1crypto import pkcs12 as asn1_pkcs12
 from asn1crypto import x509 as asn1_x509
 from fontTools import subset as ft_subset
 from fontTools import ttLib
@@ -38,9 +39,12 @@ from pyhanko.sign import fields, signers
 from pyhanko.sign.diff_analysis import DiffResult, ModificationLevel
 from pyhanko.sign.validation import validate_pdf_signature
 from pyhanko.sign.validation.pdf_embedded import EmbeddedPdfSignature
+from pyhanko.sign.validation.settings import KeyUsageConstraints
 from pyhanko.sign.validation.status import PdfSignatureStatus, SignatureCoverageLevel
 from pyhanko.stamp import TextStampStyle
 from pyhanko_certvalidator import ValidationContext
+
+from calcdoc.record.certificates import certificate_problem, chain_problem, holder_name
 
 __all__ = [
     "PASSWORD_ENV_VAR",
@@ -339,34 +343,48 @@ def _read_truetype(font_path: Path) -> bytes:
 
 _STAMP_FONT_SIZE = 9
 _STAMP_LEADING = 12
+_KEY_FILE_CAP = 1 << 20
+"""Largest signing key file read (bytes): a PKCS#12 key with its chain is a few KiB."""
 _STAMP_TEXT = "Digitally signed by %(signer)s\nSigned on %(ts)s\n%(reason_line)s"
 
 
-def _load_signer(key_file: Path, password: bytes | None) -> signers.SimpleSigner:
+def _is_pkcs12(data: bytes) -> bool:
+    """Whether ``data`` parses as a PKCS#12 container (RFC 7292), without decrypting it."""
     try:
-        data = key_file.read_bytes()
+        pfx = asn1_pkcs12.Pfx.load(data, strict=True)
+        return pfx["version"].native == "v3" and pfx["auth_safe"]["content_type"].native in (
+            "data",
+            "signed_data",
+        )
+    except Exception:  # asn1crypto raises assorted types on data that is not DER
+        return False
+
+
+def _load_signer(key_file: Path, password: bytes | None) -> signers.SimpleSigner:
+    if not key_file.exists():
+        raise SigningError(f"the signing key file {key_file} does not exist")
+    if not key_file.is_file():
+        raise SigningError(f"the signing key {key_file} is not a regular file")
+    try:
+        with key_file.open("rb") as fh:
+            data = fh.read(_KEY_FILE_CAP + 1)
     except OSError as exc:
-        reason = exc.strerror or exc.__class__.__name__
-        raise SigningError(f"cannot read the signing key {key_file}: {reason}") from exc
+        reason = exc.strerror or "read error"
+        raise SigningError(f"cannot read the signing key {key_file}: {reason}") from None
+    if len(data) > _KEY_FILE_CAP or not _is_pkcs12(data):
+        raise SigningError(f"the signing key {key_file} is not a PKCS#12 (.p12) file")
     try:
         signer = signers.SimpleSigner.load_pkcs12_data(data, other_certs=(), passphrase=password)
-    except Exception as exc:  # cryptography and asn1crypto raise assorted types
-        raise SigningError(
-            f"cannot open the signing key {key_file}: the password is wrong "
-            "or the file is not a PKCS#12 key with a certificate"
-        ) from exc
+    except Exception:  # cryptography raises ValueError for any undecryptable container
+        if password is None:
+            raise SigningError(
+                f"the signing key {key_file} is protected by a password: set "
+                f"{PASSWORD_ENV_VAR} or run in a terminal to be asked for it"
+            ) from None
+        raise SigningError(f"wrong password for the signing key {key_file}") from None
     if signer.signing_cert is None or signer.signing_key is None:
         raise SigningError(f"the signing key {key_file} holds no private key and certificate")
     return signer
-
-
-def _common_name(cert: asn1_x509.Certificate | None) -> str | None:
-    if cert is None:
-        return None
-    name = cert.subject.native.get("common_name")
-    if isinstance(name, list):
-        name = name[0] if name else None
-    return str(name) if name else None
 
 
 def _free_field_name(reader: PdfFileReader) -> str:
@@ -387,7 +405,6 @@ def sign_package(
     *,
     page: int,
     box: tuple[float, float, float, float],
-    signer_label: str,
     font_path: Path,
     reason: str,
     location: str | None = None,
@@ -395,8 +412,12 @@ def sign_package(
     """Sign a finished PDF package with a PKCS#12 key (PAdES B-B).
 
     A visible signature field is added at ``box`` on ``page``; its stamp
-    names the signer and the signing time and is drawn with the TrueType font
-    at ``font_path``, embedded as a subset. The signature is appended as an
+    names the key holder (the common name in the certificate's subject, so
+    the stamp never names anyone but the holder of the key) and the signing
+    time, and is drawn with the TrueType font at ``font_path``, embedded as
+    a subset. A certificate that may not sign a record (expired, not yet
+    valid, or whose key usage or extended key usage excludes signing
+    documents; see :mod:`calcdoc.record.certificates`) is refused. The signature is appended as an
     incremental update, so it must be the last change made to the file.
     No network access takes place.
 
@@ -413,8 +434,6 @@ def sign_package(
         Zero-based index of the page that carries the visible signature.
     box : tuple of float
         ``(x1, y1, x2, y2)`` of the signature field in PDF points.
-    signer_label : str
-        Name shown on the stamp (for example the signer's name and role).
     font_path : Path
         TrueType font for the stamp text.
     reason : str
@@ -430,10 +449,15 @@ def sign_package(
     Raises
     ------
     SigningError
-        If the key cannot be opened, the font cannot be read, the page or box
-        is invalid, or the PDF cannot be signed.
+        If the key file is missing or not a PKCS#12 key, the password is
+        wrong, the certificate may not sign now, the font cannot be read,
+        the page or box is invalid, or the PDF cannot be signed.
     """
     signer = _load_signer(key_file, password)
+    cert = signer.signing_cert
+    problem = certificate_problem(cert, datetime.now(timezone.utc))
+    if problem is not None:
+        raise SigningError(f"{problem}; the record was not signed")
     x1, y1, x2, y2 = box
     if not (x2 > x1 and y2 > y1):
         raise SigningError(f"the signature box {box} must have x2 > x1 and y2 > y1")
@@ -483,7 +507,7 @@ def sign_package(
             pdf_signer.sign_pdf(
                 writer,
                 appearance_text_params={
-                    "signer": signer_label,
+                    "signer": holder_name(cert),
                     "reason_line": f"Reason: {reason}",
                 },
                 output=out,
@@ -529,6 +553,17 @@ class SignatureFinding:
         A plain sentence describing the first problem, or None.
     modification_detail : str or None
         pyHanko's account of a disallowed later change, if any.
+    certificate_problem : str or None
+        Why the signer's certificate may not sign a record at the signing
+        time (validity, key usage, extended key usage), if so.
+    trust_problem : str or None
+        Why the certificate does not chain to a trusted certificate (only
+        when trusted certificates were given).
+    certificate_note : str or None
+        Information that does not fail, e.g. the certificate has expired
+        since the signing time.
+    signed_revision : int or None
+        pyHanko's index of the revision the signature covers (0 = first).
     """
 
     field_name: str
@@ -541,6 +576,10 @@ class SignatureFinding:
     trusted: bool | None
     problem: str | None
     modification_detail: str | None = None
+    certificate_problem: str | None = None
+    trust_problem: str | None = None
+    certificate_note: str | None = None
+    signed_revision: int | None = None
 
     @property
     def ok(self) -> bool:
@@ -619,7 +658,9 @@ def _describe(
     name: str,
     status: PdfSignatureStatus,
     covers_whole_file: bool,
-    trusted: bool | None,
+    certificate: str | None,
+    trust: str | None,
+    at: str,
 ) -> str | None:
     if not status.intact:
         return (
@@ -643,25 +684,44 @@ def _describe(
             f"Signature '{name}' does not cover the whole file as it was signed "
             "(unusual byte range)."
         )
-    if trusted is False:
-        return (
-            f"The signer of '{name}' is not trusted: the certificate does not "
-            "chain to any of the given trusted certificates."
-        )
+    if certificate is not None:
+        return f"Signature '{name}' is not acceptable: {certificate} (signing time {at})."
+    if trust is not None:
+        return f"The signer of '{name}' is not trusted: the certificate {trust}."
     return None
 
 
+def _signing_moment(signing_time: datetime | None) -> tuple[datetime, str]:
+    if signing_time is None:
+        now = datetime.now(timezone.utc)
+        return now, f"not stated, checked at {now:%Y-%m-%d %H:%M} UTC"
+    moment = signing_time if signing_time.tzinfo else signing_time.replace(tzinfo=timezone.utc)
+    return moment, f"{moment.astimezone(timezone.utc):%Y-%m-%d %H:%M} UTC as stated by the signer"
+
+
 def _finding(
-    sig: EmbeddedPdfSignature, context: ValidationContext, checked: bool
+    sig: EmbeddedPdfSignature, roots: Sequence[asn1_x509.Certificate], checked: bool
 ) -> SignatureFinding:
     name = str(sig.field_name)
-    signer_name = _common_name(sig.signer_cert)
+    cert = sig.signer_cert
+    signer_name = holder_name(cert) if cert is not None else None
     try:
         signing_time = sig.self_reported_timestamp
     except Exception:
         signing_time = None
+    moment, moment_text = _signing_moment(signing_time)
+    # pyHanko's own default key-usage policy demands non-repudiation and
+    # reports any miss as an untrusted chain; calcdoc's policy
+    # (calcdoc.record.certificates) is applied below with its own reasons.
+    context = ValidationContext(
+        trust_roots=list(roots), allow_fetching=False, revocation_mode="soft-fail", moment=moment
+    )
     try:
-        status = validate_pdf_signature(sig, signer_validation_context=context)
+        status = validate_pdf_signature(
+            sig,
+            signer_validation_context=context,
+            key_usage_settings=KeyUsageConstraints(key_usage=set()),
+        )
     except Exception as exc:
         return SignatureFinding(
             field_name=name,
@@ -673,6 +733,7 @@ def _finding(
             modification_level=None,
             trusted=False if checked else None,
             problem=f"Signature '{name}' could not be checked: {exc}",
+            signed_revision=getattr(sig, "signed_revision", None),
         )
 
     coverage = status.coverage
@@ -687,7 +748,18 @@ def _finding(
     else:
         covers = False
     detail = None if diff is None or isinstance(diff, DiffResult) else str(diff)
-    trusted = bool(status.trusted) if checked else None
+    certificate = None if cert is None else certificate_problem(cert, moment)
+    trust = None
+    if checked and cert is not None:
+        trust = chain_problem(cert, list(sig.other_embedded_certs), roots, moment)
+    note = None
+    now = datetime.now(timezone.utc)
+    if certificate is None and cert is not None and cert.not_valid_after < now:
+        note = (
+            f"the certificate of {signer_name} was valid at the signing time but has "
+            f"expired since ({cert.not_valid_after:%Y-%m-%d}); the signing time is the "
+            "signer's own statement, not a timestamp"
+        )
     return SignatureFinding(
         field_name=name,
         signer_name=signer_name,
@@ -696,9 +768,13 @@ def _finding(
         coverage=coverage.name if coverage is not None else "UNCLEAR",
         covers_whole_file=covers,
         modification_level=level.name if level is not None else None,
-        trusted=trusted,
-        problem=_describe(name, status, covers, trusted),
+        trusted=(trust is None) if checked else None,
+        problem=_describe(name, status, covers, certificate, trust, moment_text),
         modification_detail=detail,
+        certificate_problem=certificate,
+        trust_problem=trust,
+        certificate_note=note,
+        signed_revision=getattr(sig, "signed_revision", None),
     )
 
 
@@ -743,10 +819,5 @@ def signature_findings(pdf: bytes, trusted_certs: Sequence[bytes] = ()) -> Signa
             raise UnreadablePackageError(
                 f"the file is not a readable PDF ({exc.__class__.__name__}: {exc})"
             ) from exc
-        found = []
-        for sig in embedded:
-            context = ValidationContext(
-                trust_roots=roots, allow_fetching=False, revocation_mode="soft-fail"
-            )
-            found.append(_finding(sig, context, checked))
+        found = [_finding(sig, roots, checked) for sig in embedded]
     return SignatureReport(signatures=tuple(found), identity_checked=checked)

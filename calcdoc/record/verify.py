@@ -28,7 +28,15 @@ or more findings:
     that the embedded object lacks (a later calcdoc may compute more);
     everything the embedded object states must be reproduced.
 
-The package passes when no finding fails. Everything here is pure.
+(d) **Pages** and (e) **updates** (:mod:`calcdoc.record.pages`): the package
+    is rebuilt from its embedded input and compared byte for byte, and every
+    update appended after the build is inspected for anything a reader
+    would see. A package that cannot be rebuilt here is reported as *not
+    compared* (status ``unchecked``), which does not pass.
+
+The package passes when every finding passes or is a note. Everything here
+is pure (the rebuild writes nothing; it reads only the installed report
+styles).
 """
 
 from __future__ import annotations
@@ -48,6 +56,7 @@ from calcdoc.record.package import (
     metadata_input_hash,
     printed_input_hash,
 )
+from calcdoc.record.pages import NOT_COMPARED, page_findings
 from calcdoc.record.signing import (
     SignatureFinding,
     SignatureReport,
@@ -63,7 +72,7 @@ NOISE_REL_TOL = 1e-6
 NOISE_ABS_TOL = 1e-9
 _NOISE_KEYS = frozenset({"residual", "condition", "kcl_max", "kvl_max", "imbalance"})
 
-PASS, FAIL, NOTE = "pass", "fail", "note"
+PASS, FAIL, NOTE, UNCHECKED = "pass", "fail", "note", NOT_COMPARED
 
 
 @dataclass(frozen=True)
@@ -73,9 +82,11 @@ class Finding:
     Attributes
     ----------
     topic : str
-        ``signature``, ``identity``, ``input`` or ``results``.
+        ``signature``, ``certificate``, ``identity``, ``input``, ``results``,
+        ``pages`` or ``updates``.
     status : str
-        ``pass``, ``fail`` or ``note`` (information that does not fail).
+        ``pass``, ``fail``, ``note`` (information that does not fail) or
+        ``unchecked`` (the check could not be made; this does not pass).
     message : str
         A plain sentence.
     """
@@ -86,8 +97,8 @@ class Finding:
 
     @property
     def ok(self) -> bool:
-        """bool: the finding is not a failure."""
-        return self.status != FAIL
+        """bool: the finding passed or is only a note."""
+        return self.status in (PASS, NOTE)
 
 
 @dataclass(frozen=True)
@@ -123,8 +134,9 @@ class Verification:
 
     @property
     def first_failure(self) -> Finding | None:
-        """Finding or None: the first failed finding."""
-        return next((f for f in self.findings if not f.ok), None)
+        """Finding or None: the first failed finding, else the first check not made."""
+        failed = next((f for f in self.findings if f.status == FAIL), None)
+        return failed or next((f for f in self.findings if not f.ok), None)
 
     def to_json(self) -> dict[str, Any]:
         """The findings as a JSON-ready object."""
@@ -178,22 +190,50 @@ def _signature_findings(report: SignatureReport, identity_wanted: bool) -> list[
                 "signature",
                 NOTE,
                 "Not signed: the package carries no digital signature, so nothing shows "
-                "who issued it or that it is unchanged since; only its embedded input "
-                "and results were checked.",
+                "who issued it; its embedded input, results and pages were checked.",
             )
         ]
     out = []
     for s in report.signatures:
         who = _who(s)
         if s.intact and s.covers_whole_file:
-            out.append(
-                Finding(
-                    "signature", PASS, f"{who[0].upper()}{who[1:]}: intact, covers the whole file."
-                )
+            scope = (
+                "covers the whole file"
+                if s.coverage == "ENTIRE_FILE"
+                else "covers its revision; the updates appended after it are inspected below"
             )
+            out.append(Finding("signature", PASS, f"{who[0].upper()}{who[1:]}: intact, {scope}."))
         else:
             problem = s.problem or "it does not cover the file as signed."
             out.append(Finding("signature", FAIL, f"{problem} ({who})"))
+    for s in report.signatures:
+        who = s.signer_name or "(unnamed)"
+        if s.certificate_problem is not None:
+            out.append(
+                Finding(
+                    "certificate",
+                    FAIL,
+                    f"The certificate of signature '{s.field_name}' may not sign this record: "
+                    f"{s.certificate_problem}.",
+                )
+            )
+        elif s.intact:
+            out.append(
+                Finding(
+                    "certificate",
+                    PASS,
+                    f"The certificate of {who} was valid at the signing time and its key "
+                    "usage allows signing documents.",
+                )
+            )
+        if s.certificate_note is not None:
+            out.append(
+                Finding(
+                    "certificate",
+                    NOTE,
+                    s.certificate_note[:1].upper() + s.certificate_note[1:] + ".",
+                )
+            )
     for s in report.signatures:
         if not report.identity_checked:
             continue
@@ -212,7 +252,7 @@ def _signature_findings(report: SignatureReport, identity_wanted: bool) -> list[
                     "identity",
                     FAIL,
                     f"The signer {s.signer_name or '(unnamed)'} of '{s.field_name}' is not "
-                    "trusted: the certificate does not chain to any given trusted certificate.",
+                    f"trusted: the certificate {s.trust_problem or 'cannot be checked'}.",
                 )
             )
     if not report.identity_checked:
@@ -467,4 +507,5 @@ def verify_package(pdf: bytes, trusted: Sequence[bytes] = ()) -> Verification:
     sha = hashlib.sha256(source).hexdigest()
     findings.append(_hash_findings(sha, name, pdf, results))
     findings += _results_findings(name, source, results)
+    findings += [Finding(*f) for f in page_findings(pdf, name, source, results, report)]
     return Verification(tuple(findings), report, name, sha)

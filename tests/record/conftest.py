@@ -1,13 +1,14 @@
 """Shared fixtures for the record tests: a test PKI and real packages.
 
-Packages are built with ``calcdoc.report.build_package`` from the demo
-project and signed with ``calcdoc.record.signing.sign_package``.
+Packages are built as ``calcdoc build`` builds them
+(``calcdoc.record.rebuild.render_package``) from the demo project and signed
+with ``calcdoc.record.signing.sign_package``.
 """
 
 from __future__ import annotations
 
 import pytest
-from record_helpers import DEMO_PROJECT, KEY_PASSWORD, SIGNER_NAME, STAMP_FONT, RecordPki
+from record_helpers import DEMO_PROJECT, KEY_PASSWORD, STAMP_FONT, RecordPki
 
 import calcdoc
 
@@ -20,10 +21,9 @@ def record_pki(tmp_path_factory: pytest.TempPathFactory) -> RecordPki:
 @pytest.fixture(scope="session")
 def built_package():
     """A real package of the demo project (unsigned) and its signature box."""
-    from calcdoc.report.package import build_package
+    from calcdoc.record.rebuild import render_package
 
-    results = calcdoc.solve(calcdoc.load(DEMO_PROJECT))
-    return build_package(results)
+    return render_package(calcdoc.load(DEMO_PROJECT))
 
 
 @pytest.fixture(scope="session")
@@ -37,7 +37,6 @@ def signed_package(built_package, record_pki: RecordPki) -> bytes:
         KEY_PASSWORD,
         page=page,
         box=box,
-        signer_label=f"{SIGNER_NAME}, checker",
         font_path=STAMP_FONT,
         reason="Checked",
     )

@@ -48,7 +48,6 @@ from calcdoc.record.signing import (
 FONT = Path(matplotlib.get_data_path()) / "fonts" / "ttf" / "DejaVuSans.ttf"
 PASSWORD = b"correct horse"
 SIGNER_CN = "Ada Engineer"
-STAMP_LABEL = "A. Engineer, preparer"
 PAGE_TEXT = "Sheet 1: R1 = 10 k\u03a9 \u00b1 1 %"
 BOX = (320.0, 40.0, 560.0, 110.0)
 
@@ -178,7 +177,6 @@ def signed(pki: Pki, unsigned_pdf: bytes) -> tuple[bytes, dt.datetime, dt.dateti
         PASSWORD,
         page=1,
         box=BOX,
-        signer_label=STAMP_LABEL,
         font_path=FONT,
         reason="Prepared",
         location="Test bench",
@@ -273,7 +271,8 @@ def test_stamp_names_signer_and_signing_time(
 ) -> None:
     signed_pdf, before, _after = signed
     text = _stamp_text(signed_pdf)
-    assert STAMP_LABEL in text
+    # The stamp names the key holder: the common name of the certificate made above.
+    assert f"Digitally signed by {SIGNER_CN}" in text
     report = signature_findings(signed_pdf)
     when = report.signatures[0].signing_time
     assert when is not None
@@ -463,7 +462,6 @@ def test_second_signature_keeps_first_one_valid(pki: Pki, signed_pdf: bytes) -> 
         PASSWORD,
         page=0,
         box=(72.0, 40.0, 300.0, 110.0),
-        signer_label="B. Checker",
         font_path=FONT,
         reason="Checked",
     )
@@ -499,28 +497,26 @@ def test_truncated_pdf_raises_unreadable_package_error(unsigned_pdf: bytes) -> N
 
 
 def test_wrong_password_raises_signing_error(pki: Pki, unsigned_pdf: bytes) -> None:
-    with pytest.raises(SigningError, match="password is wrong"):
+    with pytest.raises(SigningError, match=r"^wrong password for the signing key .*signer\.p12$"):
         sign_package(
             unsigned_pdf,
             pki.p12_path,
             b"wrong password",
             page=0,
             box=BOX,
-            signer_label=STAMP_LABEL,
             font_path=FONT,
             reason="Prepared",
         )
 
 
 def test_missing_key_file_raises_signing_error(tmp_path: Path, unsigned_pdf: bytes) -> None:
-    with pytest.raises(SigningError, match="cannot read the signing key"):
+    with pytest.raises(SigningError, match=r"^the signing key file .*absent\.p12 does not exist$"):
         sign_package(
             unsigned_pdf,
             tmp_path / "absent.p12",
             PASSWORD,
             page=0,
             box=BOX,
-            signer_label=STAMP_LABEL,
             font_path=FONT,
             reason="Prepared",
         )
@@ -529,14 +525,13 @@ def test_missing_key_file_raises_signing_error(tmp_path: Path, unsigned_pdf: byt
 def test_non_pkcs12_key_file_raises_signing_error(tmp_path: Path, unsigned_pdf: bytes) -> None:
     bogus = tmp_path / "bogus.p12"
     bogus.write_bytes(b"this is not a key")
-    with pytest.raises(SigningError):
+    with pytest.raises(SigningError, match=r"bogus\.p12 is not a PKCS#12 \(\.p12\) file$"):
         sign_package(
             unsigned_pdf,
             bogus,
             PASSWORD,
             page=0,
             box=BOX,
-            signer_label=STAMP_LABEL,
             font_path=FONT,
             reason="Prepared",
         )
@@ -550,7 +545,6 @@ def test_page_out_of_range_raises_signing_error(pki: Pki, unsigned_pdf: bytes) -
             PASSWORD,
             page=5,
             box=BOX,
-            signer_label=STAMP_LABEL,
             font_path=FONT,
             reason="Prepared",
         )
@@ -586,7 +580,6 @@ def test_key_password_from_environment_opens_the_key(pki: Pki, unsigned_pdf: byt
         password,
         page=0,
         box=BOX,
-        signer_label=STAMP_LABEL,
         font_path=FONT,
         reason="Prepared",
     )
@@ -596,3 +589,44 @@ def test_key_password_from_environment_opens_the_key(pki: Pki, unsigned_pdf: byt
 def test_unreadable_trust_root_raises_trust_root_error(signed_pdf: bytes) -> None:
     with pytest.raises(TrustRootError, match="#1"):
         signature_findings(signed_pdf, [b"not a certificate"])
+
+
+# ---------------------------------------------------------------------------
+# Key messages through the command line (issue 13, item 13)
+# ---------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("case", "expected"),
+    [
+        ("missing", "the signing key file {key} does not exist"),
+        ("wrong password", "wrong password for the signing key {key}"),
+        (
+            "no password",
+            "the signing key {key} is protected by a password: set CALCDOC_KEY_PASSWORD",
+        ),
+        ("not a key", "the signing key {key} is not a PKCS#12 (.p12) file"),
+    ],
+)
+def test_build_sign_key_messages(
+    case: str, expected: str, pki: Pki, tmp_path: Path, monkeypatch, capsys
+) -> None:
+    from record_helpers import DEMO_PROJECT
+
+    from calcdoc.cli import main
+
+    key = {"missing": tmp_path / "absent.p12", "not a key": tmp_path / "notes.p12"}.get(
+        case, pki.p12_path
+    )
+    if case == "not a key":
+        key.write_bytes(b"")
+    monkeypatch.delenv(PASSWORD_ENV_VAR, raising=False)
+    if case == "wrong password":
+        monkeypatch.setenv(PASSWORD_ENV_VAR, "not the password")
+    out = tmp_path / "record.pdf"
+    code = main(["build", str(DEMO_PROJECT), "-o", str(out), "-q", "--sign", str(key)])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert err.count("\n") == 1 and expected.format(key=key) in err
+    assert "Traceback" not in err and "internal error" not in err
+    assert not out.exists()
