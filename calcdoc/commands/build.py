@@ -14,13 +14,16 @@ from calcdoc.fileio import write_atomic
 
 def run(args, term) -> int:
     from calcdoc.pipeline import analyse
-    from calcdoc.report.package import build_package, default_output
+    from calcdoc.record.rebuild import render_package
+    from calcdoc.report.package import default_output
 
     show = None if args.quiet else term.progress
     project = calcdoc.load(args.file)
     results = analyse(project, closed_form=True)
-    comparison = _previous(args.previous, results, term) if args.previous else None
-    package = build_package(results, previous=comparison, progress=show)
+    before, comparison = _previous(args.previous, results, term) if args.previous else (None, None)
+    package = render_package(
+        project, previous=before, progress=show, results=results, comparison=comparison
+    )
     pdf = package.pdf
     if args.sign:
         pdf = _sign(pdf, package.signature_box, Path(args.sign), project, show)
@@ -35,7 +38,7 @@ def run(args, term) -> int:
 
 
 def _previous(path: str, results, term):
-    """Compare with an earlier revision (a package or a project file)."""
+    """The earlier revision (a package or a project file) and the comparison with it."""
     from calcdoc.model.history import same_revision_warning
     from calcdoc.pipeline import analyse
     from calcdoc.record.compare import compare
@@ -47,7 +50,7 @@ def _previous(path: str, results, term):
     warning = same_revision_warning(before, results.project, inputs_changed)
     if warning:
         term.warning(warning)
-    return comparison
+    return before, comparison
 
 
 def _sign(pdf: bytes, box, key: Path, project, progress) -> bytes:

@@ -52,6 +52,8 @@ def render_package(
     previous=None,
     base_dir: Path | None = None,
     progress: Callable[[str], None] | None = None,
+    results=None,
+    comparison=None,
 ):
     """Analyse ``project`` and lay out its package (compared with ``previous`` when given).
 
@@ -67,6 +69,9 @@ def render_package(
         Where the report resolves relative paths (default: the project's folder).
     progress : callable, optional
         Called with a short message at each stage.
+    results, comparison : optional
+        The project's results and the comparison with ``previous``, when
+        the caller has them already (they are computed otherwise).
 
     Returns
     -------
@@ -75,12 +80,14 @@ def render_package(
     """
     from dataclasses import replace
 
-    from calcdoc.analysis.pipeline import analyse
+    from calcdoc.pipeline import analyse
     from calcdoc.record.compare import compare
     from calcdoc.report.package import build_package
 
-    results = analyse(project, closed_form=True)
-    comparison = None if previous is None else compare(analyse(previous), results)
+    if results is None:
+        results = analyse(project, closed_form=True)
+    if comparison is None and previous is not None:
+        comparison = compare(analyse(previous), results)
     out = build_package(results, previous=comparison, base_dir=base_dir, progress=progress)
     if previous is None:
         return out

@@ -199,19 +199,32 @@ def test_package_with_previous_revision_is_rebuilt(tmp_path, run_verify) -> None
     assert "a rebuild gives the same" in out
 
 
-def test_previous_without_its_input_is_not_compared(tmp_path, run_verify, capsys) -> None:
-    # Today's `calcdoc build --previous` does not attach the earlier input.
+def test_build_with_previous_carries_its_input_and_verifies(tmp_path, run_verify, capsys) -> None:
     new_path = tmp_path / "supply_C.toml"
     text = DEMO_PROJECT.read_text(encoding="utf-8").replace('revision = "B"', 'revision = "C"', 1)
     new_path.write_text(text, encoding="utf-8")
     out_pdf = tmp_path / "C.pdf"
     assert main(["build", str(new_path), "-o", str(out_pdf), "-q", "--previous", str(DEMO_PROJECT)]) == 0  # fmt: skip
     capsys.readouterr()
-    pdf = out_pdf.read_bytes()
     from calcdoc.record.package import embedded_previous
 
-    if embedded_previous(pdf) is not None:
-        pytest.skip("the build attaches the previous revision: covered by the test above")
+    assert embedded_previous(out_pdf.read_bytes()) is not None
+    code, out, _doc = run_verify(out_pdf.read_bytes())
+    assert code == 0, out
+
+
+def test_previous_without_its_input_is_not_compared(tmp_path, run_verify) -> None:
+    # a package laid out with a comparison but without the earlier input attached
+    from calcdoc.pipeline import analyse
+    from calcdoc.record.compare import compare
+    from calcdoc.report.package import build_package
+
+    new_path = tmp_path / "supply_C.toml"
+    text = DEMO_PROJECT.read_text(encoding="utf-8").replace('revision = "B"', 'revision = "C"', 1)
+    new_path.write_text(text, encoding="utf-8")
+    results = analyse(calcdoc.load(new_path), closed_form=True)
+    comparison = compare(analyse(calcdoc.load(DEMO_PROJECT)), results)
+    pdf = build_package(results, previous=comparison).pdf
     code, out, _doc = run_verify(pdf)
     assert code == 1
     assert (
