@@ -30,11 +30,11 @@ def ladder(nodes: int, toleranced: int, method: str, samples: int = 10000) -> st
 
 def timed(text: str) -> tuple[float, object]:
     p = calcdoc.loads(text)
-    from calcdoc.results import solve_project
+    from calcdoc.pipeline import solve_cases
 
-    r = solve_project(p)
+    r = solve_cases(p)
     t = time.perf_counter()
-    res = tolerance_result(p, r.cases[0])
+    res = tolerance_result(p, r[0])
     return time.perf_counter() - t, res
 
 
