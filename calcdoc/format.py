@@ -74,3 +74,8 @@ def value_text(kind: str, value: float, sig: int = 4) -> str:
     if unit in ("V/V", "A/A"):
         return f"{float(value):.{sig}g} {unit}"
     return eng(value, unit, sig)
+
+
+def counted(n: int, noun: str, plural: str | None = None) -> str:
+    """``counted(1, "check")`` → ``"1 check"``; ``counted(3, "case")`` → ``"3 cases"``."""
+    return f"{n} {noun if n == 1 else (plural or noun + 's')}"
