@@ -10,6 +10,8 @@ as mantissa × 10ⁿ with n a multiple of 3.
 ('4.700 kΩ', '5.087 mA', '−23.91 V', '0 W')
 >>> number(-1.994e-06), number(400), number(78_800_000, 3), signed(0.5), signed(-2)
 ('−1.994 × 10⁻⁶', '400', '78.8 × 10⁶', '+0.5', '−2')
+>>> eng(4.227e-19, "W")
+'422.7 × 10⁻²¹ W'
 """
 
 from __future__ import annotations
@@ -46,7 +48,11 @@ def eng(value: float, unit: str = "", sig: int = 4, *, ascii_only: bool = False)
     sign = minus if value < 0 else ""
     mag = abs(value)
     exp3 = int(math.floor(math.log10(mag) / 3) * 3)
-    exp3 = max(-15, min(12, exp3))
+    if not -15 <= exp3 <= 12:  # beyond the prefixes: mantissa × 10ⁿ
+        text = number(mag, sig)
+        if ascii_only:
+            text = text.replace("×", "x").translate(_PLAIN)
+        return f"{sign}{text} {unit}".strip()
     scaled = mag / 10**exp3
     # rounding may carry into the next prefix (999.96 -> 1000)
     digits = max(sig - 1 - int(math.floor(math.log10(scaled))), 0)
@@ -73,6 +79,7 @@ def percent(x: float | None, digits: int = 1) -> str:
 
 
 _SUPERSCRIPT = str.maketrans("0123456789-", "⁰¹²³⁴⁵⁶⁷⁸⁹⁻")
+_PLAIN = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻", "0123456789-")
 
 
 def number(x: float, sig: int = 4) -> str:

@@ -9,7 +9,7 @@ from reportlab.graphics.shapes import Drawing, Line, Rect, String
 from reportlab.lib import colors
 from reportlab.platypus import Flowable, Spacer
 
-from calcdoc.format import UNITS, counted, eng, number, percent, signed
+from calcdoc.format import UNITS, eng, number, percent, signed
 from calcdoc.model.load import parse_output
 from calcdoc.report.access import stage
 from calcdoc.report.layout import Layout
@@ -101,7 +101,8 @@ def tolerance_section(lay: Layout) -> list[Flowable]:
             if bad:
                 fails.append(len(rows))
             rows.append((check_label(row.check), percent(row.utilization), place(row),  # type: ignore[attr-defined]
-                         f"FAIL ({counted(len(bad), 'row')})" if bad else "PASS"))  # fmt: skip
+                         "FAIL in " + ", ".join(dict.fromkeys(case_label(x.case) for x in bad))
+                         if bad else "PASS"))  # fmt: skip
         out.append(lay.table(["Check", "Highest utilisation", "Where", "Status"], rows,
                              [2, 1.1, 3, 1], fail_rows=fails, right=(1,)))  # fmt: skip
     if tol is not None:

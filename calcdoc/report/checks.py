@@ -29,7 +29,7 @@ def checks_section(lay: Layout) -> list[Flowable]:
     by_case: dict[str, dict[str, list]] = {}
     for row in s.rows:
         by_case.setdefault(row.case, {}).setdefault(row.check.id, []).append(row)
-    for case in lay.results.cases:
+    for case, res in zip(lay.results.cases, lay.summary.resolutions, strict=True):
         out.append(sub(f"Case {case_label(case.name)}"))
         checks = by_case.get(case.name, {})
         if not checks:
@@ -45,8 +45,13 @@ def checks_section(lay: Layout) -> list[Flowable]:
             rel = "≤" if ch.bound == "max" else "≥"
             label = Paragraph(f"{lay.text(check_label(ch))}<br/><font size='{lay.style.font_size * 0.75:.2f}' "
                               f"color='#555555'>{lay.text(ch.basis)}</font>", lay.styles["cell"])  # fmt: skip
+            unit_res = unit if unit in ("A", "V", "W") else "V"
+
+            def q(v: float, unit: str = unit, unit_res: str = unit_res, res=res) -> str:
+                return eng(res.clip(v, unit_res), unit, lay.sig)
+
             row = [label, f"{rel} {eng(ch.limit, unit, lay.sig)}",
-                   f"{eng(ch.value, unit, lay.sig)} ({percent(ch.utilization)})", eng(ch.margin, unit, lay.sig)]  # fmt: skip
+                   f"{q(ch.value)} ({percent(ch.utilization)})", q(ch.margin)]  # fmt: skip
             bad = [r for r in pair if not r.passed]
             n_fail += len(bad)
             n_rows += len(pair)

@@ -49,7 +49,7 @@ def diagram_section(lay: Layout) -> list[Flowable]:
     rows = connection_rows(parts)
     out.append(lay.paragraph("Terminal marks: + and − of a voltage-defined source; a and b of "
                              "every other element (current flows a → b).", "small"))  # fmt: skip
-    out += lay.columns(["Node", "Elements joined (terminal)"], rows, [0.9, 3.2]) if len(rows) > 40 \
+    out += lay.columns(["Node", "Elements joined (terminal)"], rows, [0.9, 3.2], group=230) if len(rows) > 40 \
         else [lay.table(["Node", "Elements joined (terminal)"], rows, [1, 6])]  # fmt: skip
     return out
 
@@ -152,7 +152,7 @@ def formulation_section(lay: Layout) -> tuple[list[Flowable], list[Flowable]]:
             appendix += [lay.section("appendix_matrix"),
                          lay.paragraph(f"The non-zero entries of A and z for the nominal case, row by "
                                        f"row (listed up to {MATRIX_LISTING_LIMIT} unknowns).", "small"),
-                         *lay.columns(["Row", "Column", "Entry"], rows, [0.5, 1.3, 1.1])]  # fmt: skip
+                         *lay.columns(["Row", "Column", "Entry"], rows, [0.5, 1.3, 1.1], group=150)]  # fmt: skip
         else:
             out.append(lay.paragraph(
                 f"A has {n} rows and is not printed: beyond {MATRIX_LISTING_LIMIT} unknowns a listing "

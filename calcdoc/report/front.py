@@ -157,7 +157,7 @@ def inputs_section(lay: Layout) -> list[Flowable]:
                      rating_text(e), source_text(e)))  # fmt: skip
     out.append(lay.table(
         ["Element", "Type and description", "Nodes a → b", "Value", "Tolerance", "Rating",
-         "Source of value and rating"], rows, [0.75, 2.2, 1.0, 1.2, 0.8, 1.0, 1.9],
+         "Source of value and rating"], rows, [0.75, 2.1, 1.0, 1.2, 0.95, 1.0, 1.9],
         marks=lay.marks([f"elements.{e.name}" for e in p.elements])))  # fmt: skip
     out.append(sub("Parameters"))
     if p.parameters:

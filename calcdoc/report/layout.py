@@ -375,17 +375,18 @@ class Layout:
         return t
 
     def columns(self, header: Sequence[str], rows: Sequence[Sequence[Any]],
-                widths: Sequence[float], *, block: int = 45, right: Sequence[int] = ()) -> list[Flowable]:  # fmt: skip
+                widths: Sequence[float], *, group: float = 120.0, block: int = 45,
+                right: Sequence[int] = ()) -> list[Flowable]:  # fmt: skip
         """A long list of short rows set as side-by-side groups of ``header``.
 
-        As many groups as fit the text width; rows run down the first group,
-        then the next, in blocks of at most ``block`` rows so that a block
-        reads top to bottom on one sheet.
+        As many groups of at least ``group`` points as fit the text width (up
+        to four); rows run down the first group, then the next, in blocks of
+        at most ``block`` rows so that a block reads top to bottom on one sheet.
         """
-        group_w = sum(widths)
-        k = max(1, min(4, int(self.width // (group_w + 8))))
+        k = max(1, min(4, int((self.width + 8) // (group + 8))))
         if k == 1 or len(rows) <= 12:
             return [self.table(header, rows, widths, right=right)]
+        group_w = sum(widths)
         per = min(block, -(-len(rows) // k))
         out: list[Flowable] = []
         step = per * k
@@ -402,7 +403,7 @@ class Layout:
                         row.append("")
                 merged.append(row)
             head = [h for g in range(k) for h in (*header, *([""] if g < k - 1 else []))]
-            ws = [w for g in range(k) for w in (*widths, *([0.08 * group_w] if g < k - 1 else []))]
+            ws = [w for g in range(k) for w in (*widths, *([0.06 * group_w] if g < k - 1 else []))]
             span = len(header) + 1
             rr = [g * span + c for g in range(k) for c in right]
             out.append(self.table(head, merged, ws, right=rr))

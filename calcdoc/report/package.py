@@ -156,7 +156,8 @@ def build_package(
     say("laying out the cover")
     story: list[Flowable] = [NextPageTemplate("body"), *cover(lay), PageBreak()]
     toc_style = TableStyle([("FONT", (0, 0), (-1, -1), fonts.regular, 9), ("VALIGN", (0, 0), (-1, -1), "TOP"),
-                            ("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0)])  # fmt: skip
+                            ("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0),
+                            ("TOPPADDING", (0, 0), (-1, -1), 0), ("BOTTOMPADDING", (0, 0), (-1, -1), 0)])  # fmt: skip
     toc = TableOfContents(levelStyles=[lay.styles["toc1"], lay.styles["toc2"]], dotsMinLevel=0,
                           tableStyle=toc_style)  # fmt: skip
     story += [lay.rich("<b>Contents</b>", "h1"), toc, CondPageBreak(250)]

@@ -184,7 +184,7 @@ def _kvl(lay: Layout, c, res: Resolution, kinds) -> list[Flowable]:
             "listed by the element that closes it, with its number of terms and its sum; every "
             "term is in the embedded results.json. ")  # fmt: skip
     return [lay.rich(intro + lay.text(note + resolution_note(lay, res, "V")), "small"),
-            *lay.columns(["Loop", "Closed by", "Terms", "Sum"], rows[:ROW_LIMIT], [0.5, 0.8, 0.5, 0.7],
+            *lay.columns(["Loop", "Closed by", "Terms", "Sum"], rows[:ROW_LIMIT], [0.5, 0.8, 0.5, 0.7], group=150,
                          right=(2, 3))]  # fmt: skip
 
 
