@@ -8,6 +8,7 @@ from collections.abc import Sequence
 from typing import IO, Any
 
 from calcdoc.format import eng, percent, value_text
+from calcdoc.model.elements import KINDS
 
 
 class Terminal:
@@ -98,7 +99,7 @@ class Terminal:
                 (
                     name,
                     net.types[j].replace("_", " "),
-                    value_text(net.types[j], float(net.values[j]), sig),
+                    value_text(KINDS[net.types[j]].main.unit, float(net.values[j]), sig),
                     self.eng(br.voltage[j], "V", sig),
                     self.eng(br.current[j], "A", sig),
                     self.eng(br.power[j], "W", sig),
@@ -152,29 +153,42 @@ class Terminal:
             )
         self.table(["check", "value", "limit", "utilisation", "margin", "status"], rows)
 
-    def check_summary(self, results) -> None:
-        checks = results.checks
-        failed = results.failed
+    def check_summary(self, results, summary=None) -> None:
+        """The check set's counts (:mod:`calcdoc.checkset`), its failures and its worst row."""
+        from calcdoc.checkset import TOLERANCE, check_summary
+        from calcdoc.format import UNITS, counted
+
+        s = summary or check_summary(results)
         p = results.project
         self.line(f"{p.document.title} ({p.path})")
+        solved = s.count - s.at_tolerance
+        where = f"{counted(solved, 'check')} in {counted(s.cases, 'case')} as solved"
+        if s.at_tolerance:
+            where += f", {s.at_tolerance} at the tolerance worst case"
         self.line(
-            f"{len(checks)} checks in {len(results.cases)} case(s): "
-            f"{len(checks) - len(failed)} pass, {len(failed)} fail"
+            f"{counted(s.count, 'check')} ({where}): {s.count - len(s.failed)} pass, "
+            f"{len(s.failed)} fail"
         )
-        for case, c in failed:
-            from calcdoc.format import UNITS
 
+        def place(row) -> str:
+            return row.case + (
+                f", tolerance worst case ({row.method})" if row.scope == TOLERANCE else ""
+            )
+
+        for row in s.failed:
+            c = row.check
             unit = UNITS[c.quantity]
             rel = "≤" if c.bound == "max" else "≥"
             self.line(
-                f"  FAIL  [{case}] {c.id}: {self.eng(c.value, unit)} against {rel} "
+                f"  FAIL  [{place(row)}] {c.id}: {self.eng(c.value, unit)} against {rel} "
                 f"{self.eng(c.limit, unit)} ({percent(c.utilization)})"
             )
-        worst = results.worst
-        if worst:
+        if s.worst:
             self.line(
-                f"Worst utilisation: {percent(worst[1].utilization)} at {worst[1].id} [{worst[0]}]"
+                f"Worst utilisation: {percent(s.worst.utilization)} at {s.worst.check.id} "
+                f"[{place(s.worst)}]"
             )
         for note in results.notes:
-            self.line(note)
-        self.line("RESULT: " + ("FAIL" if failed else "PASS"))
+            if not note.startswith("Tolerance ("):  # the check set above already counts these
+                self.line(note)
+        self.line("RESULT: " + ("FAIL" if s.failed else "PASS"))

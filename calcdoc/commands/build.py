@@ -28,6 +28,8 @@ def run(args, term) -> int:
     if args.sign:
         pdf = _sign(pdf, package.signature_box, Path(args.sign), project, show)
     term.progress_done()
+    for warning in package.warnings:
+        term.warning(warning)
     for note in results.notes:
         if note.startswith("Revision history"):
             term.warning(note)

@@ -1149,4 +1149,6 @@ def read_project(path: str | Path, *, reader: Callable[[Path], bytes] | None = N
         raise ProjectError(
             [Fault("", f"cannot read the file: {exc.strerror or exc}")], str(path)
         ) from None
-    return parse_project(data, str(path))
+    from calcdoc.model.assets import with_assets
+
+    return with_assets(parse_project(data, str(path)), p)

@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 from functools import cached_property
 
+from calcdoc.model.assets import Assets
 from calcdoc.model.elements import KINDS, ElementType
 from calcdoc.model.expressions import Node
 from calcdoc.model.quantities import Dimension, Number, Quantity
@@ -230,6 +231,8 @@ class Project:
     analysis: Analysis
     sweeps: tuple[Sweep, ...] = ()
     report: ReportSettings = field(default_factory=ReportSettings)
+    # style, logo and seal, read by the file loader (calcdoc.model.assets); not part of the input's identity
+    assets: Assets = field(default_factory=Assets, compare=False, repr=False)
 
     def element(self, name: str) -> Element:
         for e in self.elements:

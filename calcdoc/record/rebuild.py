@@ -50,7 +50,6 @@ def render_package(
     project,
     *,
     previous=None,
-    base_dir: Path | None = None,
     progress: Callable[[str], None] | None = None,
     results=None,
     comparison=None,
@@ -65,8 +64,6 @@ def render_package(
         The earlier revision to compare with. Its input is attached to the
         package (see :func:`calcdoc.record.package.attach_previous`) so that
         the package can be rebuilt.
-    base_dir : Path, optional
-        Where the report resolves relative paths (default: the project's folder).
     progress : callable, optional
         Called with a short message at each stage.
     results, comparison : optional
@@ -88,7 +85,7 @@ def render_package(
         results = analyse(project, closed_form=True)
     if comparison is None and previous is not None:
         comparison = compare(analyse(previous), results)
-    out = build_package(results, previous=comparison, base_dir=base_dir, progress=progress)
+    out = build_package(results, previous=comparison, progress=progress)
     if previous is None:
         return out
     name = Path(project.path).name or "project.toml"
@@ -120,11 +117,11 @@ def _none(reason: str) -> Rebuild:
 
 
 def _style_installed(name: str) -> bool:
-    from calcdoc.report.style import TEMPLATES
+    from calcdoc.model.assets import STYLES
 
     if not _STYLE_NAME.fullmatch(name):
         return False
-    return name == "standard" or (TEMPLATES / f"{name}.toml").is_file()
+    return name == "standard" or (STYLES / f"{name}.toml").is_file()
 
 
 def _mentions_changes(pdf: bytes) -> bool:
@@ -192,8 +189,12 @@ def rebuild_package(pdf: bytes, name: str, source: bytes, results: dict[str, Any
             "input it does not carry"
         )
     try:
+        from calcdoc.model.assets import with_assets
+
         with tempfile.TemporaryDirectory(prefix="calcdoc-rebuild-") as empty:
-            out = render_package(project, previous=previous, base_dir=Path(empty))
+            # only installed styles are found from an empty folder: nothing the package names is read
+            project = with_assets(project, Path(empty) / "project.toml")
+            out = render_package(project, previous=previous)
     except CalcdocError as exc:
         return _none(f"it cannot be rebuilt here: {exc}")
     return Rebuild(out.pdf, out.signature_box, None)
@@ -207,12 +208,16 @@ def software_versions(pdf: bytes) -> dict[str, str]:
         if "Appendix B" not in text or "Component" not in text:
             continue
         words = [w.strip() for w in text[text.index("Component") :].splitlines() if w.strip()]
-        words = words[2:] if words[1:2] == ["Version"] else words[1:]
+        words = [w for w in words[1:] if w not in ("Version", "Role")]
         out: dict[str, str] = {}
-        for key, value in zip(words[0::2], words[1::2], strict=False):
-            if not _VERSION.fullmatch(value):
-                break
-            out[key] = value
+        i = 0
+        while i + 1 < len(words):  # a name followed by its version; any other text is skipped
+            name, value = words[i], words[i + 1]
+            if _VERSION.fullmatch(value) and not _VERSION.fullmatch(name):
+                out[name] = value
+                i += 2
+            else:
+                i += 1
         return out
     return {}
 

@@ -1,180 +1,190 @@
-"""Package sections for the analysis stages (cases envelope, tolerance, sensitivity, sweeps, preferred values).
-
-Layout only: every number comes from the stage objects in ``Results.extra``.
-"""
+"""Sections for the analysis stages: envelope and tolerance, sensitivity,
+sweeps, preferred values.  Layout only: every number comes from the stage
+results (through :mod:`calcdoc.report.access`) or the check set."""
 
 from __future__ import annotations
 
 from reportlab.graphics.charts.lineplots import LinePlot
 from reportlab.graphics.shapes import Drawing, Line, Rect, String
 from reportlab.lib import colors
-from reportlab.platypus import Flowable, KeepTogether, Spacer
+from reportlab.platypus import Flowable, Spacer
 
-from calcdoc.format import UNITS, eng, percent
+from calcdoc.format import UNITS, eng, number, percent, signed
 from calcdoc.model.load import parse_output
+from calcdoc.report.access import stage
+from calcdoc.report.layout import Layout
+from calcdoc.report.words import case_label, check_id_label, check_label, place
 
 
-def _unit(output: str) -> str:
-    return "V" if parse_output(output)[1] == "node" else UNITS[parse_output(output)[1]]
+def output_unit(output: str) -> str:
+    q = parse_output(output)[1]
+    return "V" if q == "node" else UNITS[q]
 
 
-def _label(output: str) -> str:
+def output_label(output: str) -> str:
+    """``out`` → ``V(out)``; ``RL.power`` → ``RL power``."""
     subject, q = parse_output(output)
-    return f"V({subject})" if q == "node" else f"{q} of {subject}"
+    return f"V({subject})" if q == "node" else f"{subject} {q}"
 
 
-def _target(value: float, unit: str, sig: int) -> str:
-    """A swept value: with its unit, or as a percentage when dimensionless."""
-    return eng(value, unit, sig) if unit else f"{value * 100:.{sig}g} %"
+def swept(value: float, unit: str, sig: int) -> str:
+    """A swept value: with its unit, or in per cent when dimensionless."""
+    return eng(value, unit, sig) if unit else f"{number(value * 100, sig)} %"
 
 
 def _dev(d: float) -> str:
-    return f"{d * 100:+.3g} %"
+    return f"{signed(d * 100, 3)} %"
 
 
-def section_tolerance(ctx, r) -> list[Flowable]:
-    from calcdoc.report.package import _numbering, _p, _section, _t, _table
+def tolerance_method(t) -> str:
+    if t.method == "extreme":
+        hows = {x.how for x in t.nodes.values()} | {
+            x.how for d in t.elements.values() for x in d.values()
+        }
+        where = (
+            f"all {t.solved} vertices of the tolerance box are solved (every toleranced "
+            "quantity at either end of its band)"
+            if t.solved == 2 ** len(t.quantities)
+            else f"{t.solved} vertices are solved, picked for each output by the signs of its "
+            "gradient (too many toleranced quantities to solve every vertex) and improved one "
+            "quantity at a time"
+        )
+        text = f"Extreme values: {where}."
+        if "vertices, proved" in hows:
+            text += (
+                " An output marked 'vertex, proved' (a node voltage, an element voltage or "
+                "current, with every toleranced quantity an element's own value) is a ratio of "
+                "functions affine in each value, hence monotonic in each value across its band, "
+                "so its extremes lie at vertices: the values shown are the exact extremes."
+            )
+        if "vertices and local search" in hows:
+            text += (
+                " Every other output (element powers, which can peak inside the box when a load "
+                "matches its source, and outputs of parameters shared by several elements) is "
+                "searched further: where its gradient at the best vertex points into the box, a "
+                "bounded quasi-Newton search continues from there, and the table says whether "
+                "the extreme lies at a vertex or inside. The search is local: an interior "
+                "extreme not reached by ascent from the best vertex could be missed."
+            )
+        return text
+    if t.method == "montecarlo":
+        return (
+            f"Monte Carlo: {t.note}. The lowest and highest values are those of the samples, not "
+            "bounds: a sample extreme, not a worst case."
+        )
+    return (
+        "Root-sum-square: first-order deviations (direct differentiation of the solution) "
+        "combined as the square root of their sum of squares; a statistical estimate, not a bound."
+    )
 
-    env = r.extra.get("envelope")
-    tol = r.extra.get("tolerance")
-    if env is None and tol is None:
-        return []
-    out: list[Flowable] = [_section(ctx, "Tolerance and operating cases")]
-    sub = _numbering(ctx)
+
+def tolerance_section(lay: Layout) -> list[Flowable]:
+    r = lay.results
+    env = stage(r, "envelope")
+    tol = stage(r, "tolerance")
+    out: list[Flowable] = [lay.section("tolerance")]
+    sub = lay.subsections("tolerance")
     if env is not None:
         e = env.envelope
         out.append(sub("Envelope across operating cases"))
-        out.append(_p(_t("For each node voltage and element power, the lowest and highest value over all cases "
-                         "and the case that gives it; for each check, its highest utilisation."), ctx, "small"))  # fmt: skip
-        rows = [
-            (
-                w.subject,
-                f"{eng(w.min, 'V', ctx.sig)} ({w.min_case})",
-                f"{eng(w.max, 'V', ctx.sig)} ({w.max_case})",
-            )
-            for w in e.nodes
-        ]
-        out.append(_table(ctx, ["Node", "Lowest (case)", "Highest (case)"], rows, [1.2, 2.5, 2.5]))
+        out.append(lay.paragraph("For each node voltage and element power, the lowest and highest "
+                                 "value over all cases and the case that gives it.", "small"))  # fmt: skip
+        rows = [(w.subject, f"{lay.num(w.min, 'V')} ({case_label(w.min_case)})",
+                 f"{lay.num(w.max, 'V')} ({case_label(w.max_case)})") for w in e.nodes]  # fmt: skip
+        out.append(lay.table(["Node", "Lowest (case)", "Highest (case)"], rows, [1.2, 2.5, 2.5]))
         out.append(Spacer(1, 4))
-        rows = [
-            (
-                w.subject,
-                f"{eng(w.min, 'W', ctx.sig)} ({w.min_case})",
-                f"{eng(w.max, 'W', ctx.sig)} ({w.max_case})",
-            )
-            for w in e.powers
-        ]
+        rows = [(w.subject, f"{lay.num(w.min, 'W')} ({case_label(w.min_case)})",
+                 f"{lay.num(w.max, 'W')} ({case_label(w.max_case)})") for w in e.powers]  # fmt: skip
         out.append(
-            _table(ctx, ["Element power", "Lowest (case)", "Highest (case)"], rows, [1.2, 2.5, 2.5])
+            lay.table(["Element power", "Lowest (case)", "Highest (case)"], rows, [1.2, 2.5, 2.5])
         )
-        out.append(Spacer(1, 4))
-        fails = [i for i, c in enumerate(e.checks) if c[3] == "fail"]
-        rows = [(cid, percent(u), case, st.upper()) for cid, u, case, st in e.checks]
-        if rows:
-            out.append(
-                _table(
-                    ctx,
-                    ["Check", "Highest utilisation", "Case", "Status there"],
-                    rows,
-                    [2, 1.3, 2, 1],
-                    fail_rows=fails,
-                )
-            )
+    s = lay.summary.checks
+    if s.count and (env is not None or tol is not None):
+        out.append(sub("Highest utilisation of each check"))
+        out.append(lay.paragraph("Over the whole check set: every case, as solved and at its "
+                                 "tolerance worst case.", "small"))  # fmt: skip
+        best: dict[str, object] = {}
+        for row in s.rows:
+            u = row.utilization
+            cur = best.get(row.check.id)
+            if cur is None or (u is not None and (cur.utilization is None or u > cur.utilization)):  # type: ignore[attr-defined]
+                best[row.check.id] = row
+        rows, fails = [], []
+        for row in best.values():
+            bad = [x for x in s.failed if x.check.id == row.check.id]  # type: ignore[attr-defined]
+            if bad:
+                fails.append(len(rows))
+            rows.append((check_label(row.check), percent(row.utilization), place(row),  # type: ignore[attr-defined]
+                         "FAIL in " + ", ".join(dict.fromkeys(case_label(x.case) for x in bad))
+                         if bad else "PASS"))  # fmt: skip
+        out.append(lay.table(["Check", "Highest utilisation", "Where", "Status"], rows,
+                             [2, 1.1, 3, 1], fail_rows=fails, right=(1,)))  # fmt: skip
     if tol is not None:
-        for t in tol.per_case:
+        for i, (t, _case) in enumerate(zip(tol.per_case, r.cases, strict=True)):
             if t is None:
                 continue
-            out.append(sub(f"Tolerance, case {t.case}: {t.method}"))
-            out.append(_p(_t(f"Method: {t.note}."), ctx, "small"))
-            rows = [
-                (q.name, q.kind, f"−{q.minus * 100:g} % / +{q.plus * 100:g} %")
-                for q in t.quantities
-            ]
-            out.append(_table(ctx, ["Toleranced quantity", "Kind", "Band"], rows, [2, 1.2, 2]))
+            res = lay.summary.resolutions[i]
+            out.append(sub(f"Tolerance, case {case_label(t.case)}"))
+            out.append(lay.paragraph(tolerance_method(t), "small"))
+            rows = [(q.name, q.kind, f"−{number(q.minus * 100)} % / +{number(q.plus * 100)} %")
+                    for q in t.quantities]  # fmt: skip
+            out.append(lay.table(["Toleranced quantity", "Kind", "Band"], rows, [2, 1.2, 2]))
             out.append(Spacer(1, 4))
             names = [q.name for q in t.quantities]
-
-            def at(devs: tuple[float, ...], names=names) -> str:
-                return (
-                    ", ".join(f"{n} {_dev(d)}" for n, d in zip(names, devs, strict=True))
-                    if len(names) <= 6
-                    else "see results.json"
-                )
-
             mc = t.method == "montecarlo"
-            head = ["Node", "Nominal", "Min", "Max"] + (
-                ["Mean", "Std. dev.", "1 % / 99 %"] if mc else ["Min at", "Max at"]
-            )
+            show_at = not mc and len(names) <= 4
+            head = ["Node", "Nominal", "Lowest", "Highest"]
+            if mc:
+                head += ["Mean", "Std. dev.", "1 % / 99 %"]
+            elif show_at:
+                head += ["Lowest at", "Highest at"]
             rows = []
             for n, x in t.nodes.items():
-                row = [
-                    n,
-                    eng(x.nominal, "V", ctx.sig),
-                    eng(x.min, "V", ctx.sig),
-                    eng(x.max, "V", ctx.sig),
-                ]
-                row += ([eng(x.mean, "V", ctx.sig), eng(x.std, "V", 3), f"{eng(x.p01, 'V', ctx.sig)} / {eng(x.p99, 'V', ctx.sig)}"] if mc
-                        else [at(x.min_at), at(x.max_at)])  # fmt: skip
+                row = [n, *(lay.num(res.clip(v, "V"), "V") for v in (x.nominal, x.min, x.max))]
+                if mc:
+                    row += [lay.num(res.clip(x.mean, "V"), "V"), lay.num(res.clip(x.std, "V"), "V", 3),
+                            f"{lay.num(res.clip(x.p01, 'V'), 'V')} / {lay.num(res.clip(x.p99, 'V'), 'V')}"]  # fmt: skip
+                elif show_at:
+                    row += [", ".join(f"{k} {_dev(d)}" for k, d in zip(names, devs, strict=True))
+                            for devs in (x.min_at, x.max_at)]  # fmt: skip
                 rows.append(row)
-            out.append(
-                _table(
-                    ctx, head, rows, [1, 1, 1, 1, 1.6, 1.6] if not mc else [1, 1, 1, 1, 1, 1, 1.6]
-                )
-            )
+            widths = [1, 1, 1, 1] + ([1, 1, 1.6] if mc else ([1.8, 1.8] if show_at else []))
+            out.append(lay.table(head, rows, widths, right=(1, 2, 3)))
             out.append(Spacer(1, 4))
-            rows = [(e, eng(d["power"].nominal, "W", ctx.sig), eng(d["power"].min, "W", ctx.sig), eng(d["power"].max, "W", ctx.sig),
-                     eng(d["current"].min, "A", ctx.sig), eng(d["current"].max, "A", ctx.sig)) for e, d in t.elements.items()]  # fmt: skip
-            out.append(
-                _table(
-                    ctx,
-                    [
-                        "Element",
-                        "Power nominal",
-                        "Power min",
-                        "Power max",
-                        "Current min",
-                        "Current max",
-                    ],
-                    rows,
-                    [1, 1, 1, 1, 1, 1],
-                )
-            )
-            if t.checks:
-                out.append(Spacer(1, 4))
-                out.append(_p("<b>Design checks at the worst case</b>", ctx, "small"))
-                fails, rows = [], []
-                for i, c in enumerate(t.checks):
-                    unit = UNITS[c.quantity]
-                    if not c.passed:
-                        fails.append(i)
-                    rows.append((c.id, eng(c.value, unit, ctx.sig), f"{'≤' if c.bound == 'max' else '≥'} {eng(c.limit, unit, ctx.sig)}",
-                                 percent(c.utilization), eng(c.margin, unit, ctx.sig), "PASS" if c.passed else "FAIL"))  # fmt: skip
-                out.append(
-                    _table(
-                        ctx,
-                        ["Check", "Worst value", "Limit", "Utilisation", "Margin", "Status"],
-                        rows,
-                        [1.6, 1, 1.1, 1, 1, 0.7],
-                        fail_rows=fails,
-                    )
-                )
+            rows = [(el, *(lay.num(res.clip(v, u), u) for v, u in
+                           ((d["power"].nominal, "W"), (d["power"].min, "W"), (d["power"].max, "W"),
+                            (d["current"].min, "A"), (d["current"].max, "A"))))
+                    for el, d in t.elements.items()]  # fmt: skip
+            out.append(lay.table(["Element", "Power nominal", "Power lowest", "Power highest",
+                                  "Current lowest", "Current highest"], rows, [1, 1, 1, 1, 1, 1],
+                                 right=(1, 2, 3, 4, 5)))  # fmt: skip
+            if t.checks and lay.has("checks"):
+                number_ = f"{lay.plan['checks'].number}.{i + 1}"
+                out.append(lay.paragraph(f"The design checks at this case's worst case are set "
+                                         f"out beside the checks as solved in {number_}.", "small"))  # fmt: skip
             if t.histogram is not None:
-                out.append(_Histogram(ctx, *t.histogram))
+                label, edges, counts = t.histogram
+                if sum(n > 0 for n in counts) > 1:
+                    out.append(lay.keep_together([Histogram(lay, label, edges, counts)]))
+                else:
+                    out.append(lay.paragraph(f"{label} does not vary across the samples (every "
+                                             "sample falls in one bin), so no distribution is "
+                                             "drawn.", "small"))  # fmt: skip
     return out
 
 
-class _Histogram(Flowable):
-    def __init__(self, ctx, label, edges, counts) -> None:
+class Histogram(Flowable):
+    def __init__(self, lay: Layout, label, edges, counts) -> None:
         super().__init__()
-        self.ctx, self.label, self.edges, self.counts = ctx, label, edges, counts
+        self.lay, self.label, self.edges, self.counts = lay, label, edges, counts
 
     def wrap(self, aw, ah):
-        self.width, self.height = min(aw, 360), 120
+        self.width, self.height = min(aw, 360), 124
         return self.width, self.height
 
     def draw(self) -> None:
-        c, f = self.canv, self.ctx.fonts
-        x0, y0, w, h = 30, 22, self.width - 40, self.height - 40
+        c, f = self.canv, self.lay.fonts
+        x0, y0, w, h = 30, 26, self.width - 40, self.height - 40
         peak = max(self.counts) or 1
         bw = w / len(self.counts)
         c.setFillColor(colors.HexColor("#4b6b8f"))
@@ -183,177 +193,118 @@ class _Histogram(Flowable):
         c.setFillColor(colors.black)
         c.setStrokeColor(colors.black)
         c.line(x0, y0, x0 + w, y0)
-        c.setFont(f.regular, 6.5)
-        c.drawString(x0, y0 - 9, eng(self.edges[0], "V", 4))
-        c.drawRightString(x0 + w, y0 - 9, eng(self.edges[-1], "V", 4))
-        c.drawCentredString(
-            x0 + w / 2,
-            y0 - 9,
-            f"{self.label}: Monte Carlo distribution ({sum(self.counts)} samples)",
-        )
-
-
-class _Bars(Flowable):
-    """Ranked horizontal bars of normalised sensitivities."""
-
-    def __init__(self, ctx, ranked) -> None:
-        super().__init__()
-        self.ctx, self.ranked = ctx, ranked
-
-    def wrap(self, aw, ah):
-        self.width, self.height = min(aw, 400), 12 * len(self.ranked) + 14
-        return self.width, self.height
-
-    def draw(self) -> None:
-        c, f = self.canv, self.ctx.fonts
-        big = max((abs(v) for _, _, v in self.ranked), default=1.0) or 1.0
-        mid, half = self.width / 2 + 20, self.width / 2 - 70
-        y = self.height - 12
         c.setFont(f.regular, 7)
-        for name, _, v in self.ranked:
-            c.setFillColor(colors.black)
-            c.drawRightString(mid - half - 6, y + 1.5, name[:16])
-            c.setFillColor(colors.HexColor("#4b6b8f" if v >= 0 else "#8f6b4b"))
-            wbar = half * abs(v) / big
-            c.rect(mid if v >= 0 else mid - wbar, y, wbar, 8, stroke=0, fill=1)
-            c.setFillColor(colors.black)
-            c.drawString(mid + half + 6, y + 1.5, f"{v:+.4g}")
-            y -= 12
-        c.setStrokeColor(colors.black)
-        c.line(mid, 2, mid, self.height - 2)
+        c.drawString(x0, y0 - 10, eng(self.edges[0], "V", self.lay.sig))
+        c.drawRightString(x0 + w, y0 - 10, eng(self.edges[-1], "V", self.lay.sig))
+        c.drawCentredString(x0 + w / 2, y0 - 20,
+                            f"{self.label}: distribution over {sum(self.counts)} Monte Carlo samples")  # fmt: skip
 
 
-def section_sensitivity(ctx, r) -> list[Flowable]:
-    from calcdoc.report.package import _numbering, _p, _section, _t, _table
+def sensitivity_section(lay: Layout) -> list[Flowable]:
+    st = stage(lay.results, "sensitivity")
+    out: list[Flowable] = [lay.section("sensitivity")]
+    items = list(st.items)
+    by_method: dict[str, list[str]] = {}
+    for s in items:
+        by_method.setdefault(s.method, []).append(output_label(s.output))
+    how = {"closed form": "the exact derivative of the closed-form solution",
+           "adjoint": "the adjoint of the MNA system (one transposed solve per output)"}  # fmt: skip
+    methods = "; ".join(
+        f"for {', '.join(outs)} from {how.get(m, m)}" for m, outs in by_method.items()
+    )
+    out.append(lay.paragraph(
+        "Normalised sensitivity S = (∂y/∂p)·(p/y): the per-cent change of each output for a 1 % "
+        "change of an element value or parameter, nominal case. Rows are ranked by the largest "
+        f"magnitude over the outputs; 0 means no dependence. Computed {methods}.", "small"))  # fmt: skip
+    table: dict[tuple[str, str], dict[str, float]] = {}
+    for s in items:
+        for n, k, v in s.ranked:
+            table.setdefault((n, k), {})[s.output] = v
+    order = sorted(table, key=lambda key: -max(abs(v) for v in table[key].values()))
+    per = -(-len(items) // -(-len(items) // 5))  # at most 5 outputs a table, evenly shared
+    for start in range(0, len(items), per):
+        chunk = items[start : start + per]
+        head = ["Quantity", "Kind", *(f"{output_label(s.output)} = {lay.num(s.value, output_unit(s.output))}"
+                                       for s in chunk)]  # fmt: skip
+        rows = [(n, k, *(signed(table[(n, k)].get(s.output, 0.0), lay.sig) for s in chunk))
+                for n, k in order]  # fmt: skip
+        out.append(lay.table(head, rows, [1.2, 0.9, *([1.2] * len(chunk))],
+                             right=tuple(range(2, 2 + len(chunk)))))  # fmt: skip
+        out.append(Spacer(1, 4))
+    return out[:-1]
 
-    st = r.extra.get("sensitivity")
-    if st is None:
-        return []
-    out: list[Flowable] = [_section(ctx, "Sensitivity")]
-    sub = _numbering(ctx)
-    out.append(_p(_t("Normalised sensitivity S = (∂y/∂p)·(p/y): the per-cent change of the output for a 1 % change of "
-                     "each element value or parameter, in the nominal case; ranked by magnitude. Method per output: "
-                     "exact derivative of the closed-form solution, or the adjoint of the MNA system."), ctx, "small"))  # fmt: skip
-    for s in st.items:
-        rows = [(n, k, f"{v:+.4g}") for n, k, v in s.ranked[:25]]
-        block = [sub(f"{_label(s.output)} = {eng(s.value, _unit(s.output), ctx.sig)} ({s.method})")]
-        block.append(
-            _table(
-                ctx, ["Quantity", "Kind", "S"], rows or [("—", "", "no dependence")], [2, 1.2, 1]
-            )
-        )
-        if rows:
-            block.append(_Bars(ctx, s.ranked[:15]))
-        out.append(KeepTogether(block))
-    return out
 
-
-def _plot(ctx, sweep, output) -> Drawing:
-    w, h = min(ctx.width, 420), 170
+def _plot(lay: Layout, sweep, output) -> Drawing:
+    w, h = min(lay.width, 420), 170
     d = Drawing(w, h)
     lp = LinePlot()
-    lp.x, lp.y, lp.width, lp.height = 50, 30, w - 70, h - 50
+    lp.x, lp.y, lp.width, lp.height = 56, 30, w - 76, h - 50
     xs = sweep.points
-    ys = sweep.series[output]
-    lp.data = [list(zip(xs, ys, strict=True))]
+    lp.data = [list(zip(xs, sweep.series[output], strict=True))]
     lims = sweep.limits.get(output, ())
     for _, lim in lims:
         lp.data.append([(xs[0], lim), (xs[-1], lim)])
     lp.lines[0].strokeColor = colors.HexColor("#1f3a5f")
     lp.lines[0].strokeWidth = 1.2
     for k in range(1, len(lp.data)):
-        lp.lines[k].strokeColor = colors.HexColor(ctx.style.colours["fail"])
+        lp.lines[k].strokeColor = colors.HexColor(lay.colour("fail"))
         lp.lines[k].strokeDashArray = [3, 2]
     allv = [v for series in lp.data for _, v in series]
     lo, hi = min(allv), max(allv)
     pad = (hi - lo) * 0.08 or abs(hi) * 0.1 or 1.0
     lp.yValueAxis.valueMin, lp.yValueAxis.valueMax = lo - pad, hi + pad
     lp.xValueAxis.valueMin, lp.xValueAxis.valueMax = xs[0], xs[-1]
-    unit_x = sweep.unit
-    unit_y = _unit(output)
-    lp.xValueAxis.labelTextFormat = lambda v: _target(v, unit_x, 3)
+    unit_y = output_unit(output)
+    lp.xValueAxis.labelTextFormat = lambda v: swept(v, sweep.unit, 3)
     lp.yValueAxis.labelTextFormat = lambda v: eng(v, unit_y, 3)
     for ax in (lp.xValueAxis, lp.yValueAxis):
-        ax.labels.fontName = ctx.fonts.regular
-        ax.labels.fontSize = 6.5
-    lp.xValueAxis.labels.angle = 0
+        ax.labels.fontName = lay.fonts.regular
+        ax.labels.fontSize = 7
     d.add(lp)
-    d.add(
-        String(
-            50,
-            h - 12,
-            f"{_label(output)} against {sweep.target}",
-            fontName=ctx.fonts.bold,
-            fontSize=8,
-        )
-    )
+    d.add(String(56, h - 12, f"{output_label(output)} against {sweep.target}",
+                 fontName=lay.fonts.bold, fontSize=8))  # fmt: skip
     if lims:
-        d.add(
-            Line(
-                w - 150,
-                h - 9,
-                w - 135,
-                h - 9,
-                strokeColor=colors.HexColor(ctx.style.colours["fail"]),
-                strokeDashArray=[3, 2],
-            )
-        )
-        d.add(String(w - 130, h - 12, "design limit", fontName=ctx.fonts.regular, fontSize=7))
+        d.add(Line(w - 150, h - 9, w - 135, h - 9, strokeColor=colors.HexColor(lay.colour("fail")),
+                   strokeDashArray=[3, 2]))  # fmt: skip
+        d.add(String(w - 130, h - 12, "design limit", fontName=lay.fonts.regular, fontSize=7))
     d.add(Rect(0, 0, 0.1, 0.1, strokeColor=None, fillColor=None))
     return d
 
 
-def section_sweeps(ctx, r) -> list[Flowable]:
-    from calcdoc.report.package import _numbering, _p, _section, _t, _table
-
-    st = r.extra.get("sweeps")
-    if st is None:
-        return []
-    out: list[Flowable] = [_section(ctx, "Parameter sweeps")]
-    sub = _numbering(ctx)
+def sweeps_section(lay: Layout) -> list[Flowable]:
+    st = stage(lay.results, "sweeps")
+    out: list[Flowable] = [lay.section("sweeps")]
+    sub = lay.subsections("sweeps")
     for s in st.sweeps:
-        out.append(sub(s.name))
+        out.append(sub(s.name or f"Sweep of {s.target}"))
         unit = s.unit
-        out.append(_p(_t(f"{s.target} from {_target(s.points[0], unit, ctx.sig)} to {_target(s.points[-1], unit, ctx.sig)} "
-                         f"({len(s.points)} points, {s.scale} scale); every point is a full solution."), ctx, "small"))  # fmt: skip
-        for output in s.series:
-            out.append(_plot(ctx, s, output))
+        out.append(lay.paragraph(f"{s.target} from {swept(s.points[0], unit, lay.sig)} to "
+                                 f"{swept(s.points[-1], unit, lay.sig)} ({len(s.points)} points, "
+                                 f"{s.scale} scale); every point is a full solution.", "small"))  # fmt: skip
+        plots = [_plot(lay, s, output) for output in s.series]
         if s.crossings:
-            rows = [(c.output, c.check, eng(c.limit, _unit(c.output), ctx.sig), _target(c.at, unit, ctx.sig + 1),
-                     c.direction) for c in s.crossings]  # fmt: skip
-            out.append(
-                _table(
-                    ctx,
-                    [
-                        "Output",
-                        "Limit crossed",
-                        "Limit",
-                        f"{s.target} at the crossing",
-                        "Output there",
-                    ],
-                    rows,
-                    [1.2, 1.6, 1, 1.6, 0.9],
-                )
-            )
+            rows = [(output_label(c.output), check_id_label(c.check), eng(c.limit, output_unit(c.output), lay.sig),
+                     swept(c.at, unit, lay.sig + 1), c.direction) for c in s.crossings]  # fmt: skip
+            table = lay.table(["Output", "Limit crossed", "Limit", f"{s.target} at the crossing",
+                               "Output is"], rows, [1.2, 1.8, 1, 1.6, 0.8])  # fmt: skip
         else:
-            out.append(_p("No design limit is crossed within the range.", ctx, "small"))
+            table = lay.paragraph("No design limit is crossed within the range.", "small")
+        for p in plots[:-1]:
+            out.append(lay.keep_together([p]))
+        out.append(lay.keep_together([*plots[-1:], table]))
     return out
 
 
-def section_preferred(ctx, r) -> list[Flowable]:
-    from calcdoc.report.package import _section, _table
-
-    st = r.extra.get("preferred_values")
-    if st is None:
-        return []
+def preferred_section(lay: Layout) -> list[Flowable]:
+    st = stage(lay.results, "preferred_values")
     rows, fails = [], []
     for i, f in enumerate(st.findings):
         if not f.in_series:
             fails.append(i)
-        rows.append((f.element, f.series, eng(f.value, "Ω", 4), "yes" if f.in_series else "NO",
-                     "—" if f.in_series else f"{eng(f.below, 'Ω', 3)} / {eng(f.above, 'Ω', 3)}"))  # fmt: skip
-    return [_section(ctx, "Preferred values (IEC 60063)"),
-            _table(ctx, ["Element", "Series", "Value", "In series", "Nearest below / above"], rows, [1, 0.8, 1, 0.8, 2], fail_rows=fails)]  # fmt: skip
-
-
-SECTIONS = (section_tolerance, section_sensitivity, section_sweeps, section_preferred)
+        rows.append((f.element, f.series, lay.num(f.value, "Ω"), "yes" if f.in_series else "NO",
+                     "—" if f.in_series else f"{lay.num(f.below, 'Ω')} / {lay.num(f.above, 'Ω')}"))  # fmt: skip
+    return [lay.section("preferred"),
+            lay.paragraph("Each element given a preferred-value series, checked against the "
+                          "series of IEC 60063; a value outside it is an open finding.", "small"),
+            lay.table(["Element", "Series", "Value", "In the series", "Nearest below / above"],
+                      rows, [1, 0.8, 1, 0.8, 2], fail_rows=fails)]  # fmt: skip

@@ -1,31 +1,59 @@
 """The circuit diagram, drawn from the project file.
 
 Layout that always works: every node is a horizontal rail, rails are
-stacked with the reference rail at the bottom (under a ground symbol), and
-every element is a vertical rung in its own column between its two rails.
-A rung that passes a rail it does not join is drawn with a white gap in
-that rail, so crossings never read as connections; a dot marks every
-junction where three or more conductors meet.  Symbols follow the shapes
-of IEC 60617 (resistor: rectangle; independent sources: circle with +/−
-or an arrow; dependent sources: diamond).  Beyond ``max_parts`` elements,
-or when the labels would print below 6 pt, no drawing is made and the
-report lists the connections instead.
+stacked by nominal potential with the reference rail at the bottom (under
+a ground symbol), and every element is a vertical rung in its own column
+between its two rails.  Where a rung passes a rail it does not join, the
+rail is broken by a gap, so a crossing never reads as a connection; a dot
+marks every junction where three conductors meet.  Symbols follow the
+shapes of IEC 60617 (resistor: rectangle; independent sources: circle
+with + and − or an arrow; dependent sources: diamond).
+
+A dependent source's control is drawn as a dashed line, which carries no
+current: from taps on its two control nodes (marked + and −), or from a
+ring on the wire of the element whose current controls it.
+
+Type is never scaled: labels are set at :data:`FONT` pt (at least
+:data:`MIN_FONT`), and a circuit too large to draw at that size returns no
+drawing (the report lists its connections instead).
 """
 
 from __future__ import annotations
 
 from collections import deque
-from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field
 
 from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Polygon, Rect, String
 from reportlab.lib import colors
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
-MIN_FONT = 6.0
-FONT = 8.0
-COL = 30.0  # column pitch at full size (pt)
-RAIL = 78.0  # rail pitch at full size (pt)
+from calcdoc.model.elements import KINDS
+
+MIN_FONT = 7.0
+FONT = 7.5
+COL = 31.0  # column pitch for a one-line label (pt)
+LINE_PITCH = 8.5  # more pitch for each further label line
+SENSE_PITCH = 17.0  # from a control-tap column to its source
+CONTROL_ROOM = 6.0  # more pitch before a source controlled by the current of its left neighbour
+RAIL_MIN = 60.0  # rail pitch bounds (pt)
+RAIL_MAX = 120.0
+LABEL_DX = 17.0  # label baseline from the rung
+LABEL_CLEAR = 10.0  # label ends to the rails above and below
+GAP = 3.5  # half-width of the break in a rail where a rung crosses it
+DASH = [2.2, 1.8]
+
+LEGEND = (
+    "Horizontal line: a node, named at its left end; the ground symbol marks the reference node.",
+    "Dot: a junction where conductors join. A line that passes a gap in another line does not "
+    "join it.",
+    "Rectangle: resistor. Circle with + and −: voltage source (+ at terminal a). Circle with an "
+    "arrow: current source, the arrow pointing from a to b. Diamond: dependent source.",
+    "Dashed line: a dependent source's control, which carries no current: from taps on two nodes "
+    "(marked + and −) or from a ring on the wire of the element whose current controls it.",
+    "Labels give the element's name and value; a dependent source's label gives gain × control, "
+    "where V(y,x) means V(y) − V(x) and I(R1) the current through R1 from its a to its b terminal.",
+)
 
 
 @dataclass(frozen=True)
@@ -34,6 +62,15 @@ class DiagramPart:
     kind: str
     nodes: tuple[str, str]
     label: str
+    control_nodes: tuple[str, str] | None = None
+    control_element: str | None = None
+
+
+@dataclass
+class _Column:
+    part: DiagramPart | None  # None: the control taps of ``of``
+    of: DiagramPart | None = None
+    lines: list[str] = field(default_factory=list)
 
 
 def rail_order(
@@ -57,7 +94,7 @@ def rail_order(
             if y not in dist:
                 dist[y] = dist[x] + 1
                 q.append(y)
-    first = {}
+    first: dict[str, int] = {}
     for i, p in enumerate(parts):
         for n in p.nodes:
             first.setdefault(n, i)
@@ -70,19 +107,65 @@ def rail_order(
     return [*nodes, reference]
 
 
-def _column_order(parts: Sequence[DiagramPart], row: dict[str, int]) -> list[DiagramPart]:
-    """Short rungs near the top first, so rails stay short and crossings few."""
-    return sorted(parts, key=lambda p: (min(row[n] for n in p.nodes), max(row[n] for n in p.nodes)))
-
-
 def connection_rows(parts: Sequence[DiagramPart]) -> list[tuple[str, str]]:
     """(node, elements joined at it with their terminal) for a connection table."""
     joined: dict[str, list[str]] = {}
     for p in parts:
-        marks = ("+", "−") if p.kind in ("voltage_source", "vcvs", "ccvs") else ("a", "b")
+        polar = p.kind in KINDS and KINDS[p.kind].terminals == ("plus", "minus")
+        marks = ("+", "−") if polar else ("a", "b")
         for n, m in zip(p.nodes, marks, strict=True):
             joined.setdefault(n, []).append(f"{p.name} ({m})")
     return [(n, ", ".join(v)) for n, v in joined.items()]
+
+
+def label_text(p: DiagramPart) -> tuple[str, str]:
+    """(name, value) of a part's label; a dependent source's value is gain × control."""
+    if p.control_nodes:
+        return p.name, f"{p.label} × V({p.control_nodes[0]},{p.control_nodes[1]})"
+    if p.control_element:
+        return p.name, f"{p.label} × I({p.control_element})"
+    return p.name, p.label
+
+
+def _columns(parts: Sequence[DiagramPart], row: dict[str, int]) -> list[_Column]:
+    """Short rungs near the top first; control taps just before their source, and a
+    current-controlled source just after the element that controls it."""
+    order = sorted(
+        parts, key=lambda p: (min(row[n] for n in p.nodes), max(row[n] for n in p.nodes))
+    )
+    names = {p.name for p in parts}
+    followers = [p for p in order if p.control_element in names]
+    for p in followers:
+        order.remove(p)
+    for p in followers:
+        at = next(i for i, q in enumerate(order) if q.name == p.control_element)
+        order.insert(at + 1, p)
+    cols: list[_Column] = []
+    for p in order:
+        if p.control_nodes and all(n in row for n in p.control_nodes):
+            cols.append(_Column(None, p))
+        cols.append(_Column(p))
+    return cols
+
+
+def _dashed(g: Group, pts: list[tuple[float, float]], cuts: list[tuple[float, float]]) -> None:
+    """A dashed polyline, broken around each crossing point in ``cuts``."""
+    for (x0, y0), (x1, y1) in zip(pts, pts[1:], strict=False):
+        if x0 == x1:  # vertical: break at crossed rails
+            lo, hi = sorted((y0, y1))
+            stops = sorted(y for x, y in cuts if abs(x - x0) < 0.01 and lo < y < hi)
+            y = lo
+            for s in stops:
+                if s - GAP > y:
+                    g.add(Line(x0, y, x0, s - GAP, strokeColor=colors.black, strokeWidth=0.7,
+                               strokeDashArray=DASH))  # fmt: skip
+                y = s + GAP
+            if hi > y:
+                g.add(Line(x0, y, x0, hi, strokeColor=colors.black, strokeWidth=0.7,
+                           strokeDashArray=DASH))  # fmt: skip
+        else:
+            g.add(Line(x0, y0, x1, y1, strokeColor=colors.black, strokeWidth=0.7,
+                       strokeDashArray=DASH))  # fmt: skip
 
 
 def circuit_drawing(
@@ -100,109 +183,179 @@ def circuit_drawing(
         return None
     rails = rail_order(parts, reference, levels)
     row = {n: i for i, n in enumerate(rails)}
-    cols = _column_order(parts, row)
-    label_w = max(stringWidth(n, font_name, FONT) for n in rails) + 14
-    full_w = label_w + COL * (len(cols) + 0.5) + 10
-    full_h = RAIL * (len(rails) - 1) + 60
-    scale = min(1.0, width / full_w, max_height / full_h)
-    if FONT * scale < MIN_FONT:
+    cols = _columns(parts, row)
+
+    # rail pitch: room for every label in the gap under its rung's top rail
+    def width_of(lines: list[str]) -> float:
+        return max(stringWidth(t, font_name, FONT) for t in lines)
+
+    for c in cols:
+        if c.part:
+            name, value = label_text(c.part)
+            c.lines = [f"{name} {value}"]
+    longest = max(width_of(c.lines) for c in cols if c.part)
+    pitch_cap = (max_height - 60) / max(len(rails) - 1, 1)
+    rail = max(RAIL_MIN, min(RAIL_MAX, longest + 2 * LABEL_CLEAR, pitch_cap))
+    if rail > pitch_cap + 1e-6:
+        return None
+    room = rail - 2 * LABEL_CLEAR
+    for c in cols:
+        if c.part and width_of(c.lines) > room:
+            name, value = label_text(c.part)
+            c.lines = [name, value]
+            if width_of(c.lines) > room and " × " in value:
+                gain, _, ctl = value.partition(" × ")
+                c.lines = [name, gain + " ×", ctl]
+            if width_of(c.lines) > room:
+                return None
+    # column positions: each column leaves room for its own label before the next
+    label_w = max(stringWidth(n, font_name, FONT) for n in rails) + 13
+    x_of, x = [], label_w + COL / 2
+    for k, c in enumerate(cols):
+        x_of.append(x)
+        if c.part is None:
+            x += SENSE_PITCH
+            continue
+        x += COL + LINE_PITCH * (len(c.lines) - 1)
+        nxt = cols[k + 1].part if k + 1 < len(cols) else None
+        if nxt is not None and nxt.control_element == c.part.name:
+            x += CONTROL_ROOM  # the dashed control line passes between this label and the source
+    full_w = x_of[-1] + LABEL_DX + LINE_PITCH * (len(cols[-1].lines) - 1) + 4
+    full_h = rail * (len(rails) - 1) + 60
+    if full_w > width or full_h > max_height + 1e-6:
         return None
     g = Group()
-    y_of = {n: full_h - 20 - RAIL * row[n] for n in rails}
-    x_of = [label_w + COL * (i + 0.5) for i in range(len(cols))]
     ink = colors.black
-    # rails
+    y_of = {n: full_h - 20 - rail * row[n] for n in rails}
+    x_part = {c.part.name: x for x, c in zip(x_of, cols, strict=True) if c.part}
     spans: dict[str, list[float]] = {}
-    for x, p in zip(x_of, cols, strict=True):
-        for n in p.nodes:
+    for x, c in zip(x_of, cols, strict=True):
+        for n in c.part.nodes if c.part else c.of.control_nodes:  # type: ignore[union-attr]
             spans.setdefault(n, []).append(x)
+    # rails, with their names and junction dots
     for n, xs in spans.items():
-        y = y_of[n]
-        x0 = label_w - 6
+        y, x0 = y_of[n], label_w - 6
         g.add(Line(x0, y, max(xs), y, strokeColor=ink, strokeWidth=1))
         g.add(String(2, y - FONT * 0.35, n, fontName=font_name, fontSize=FONT, fillColor=ink))
         g.add(Circle(x0, y, 1.8, fillColor=colors.white, strokeColor=ink, strokeWidth=0.8))
         for x in xs:
             if x != max(xs):
                 g.add(Circle(x, y, 2.0, fillColor=ink, strokeColor=ink, strokeWidth=0))
-    # rungs
-    for x, p in zip(x_of, cols, strict=True):
+
+    def crossings(
+        x: float, lo: float, hi: float, joined: Sequence[str]
+    ) -> list[tuple[float, float]]:
+        return [(x, y_of[n]) for n in rails if n not in joined and lo < y_of[n] < hi
+                and n in spans and x <= max(spans[n])]  # fmt: skip
+
+    sym_y: dict[str, float] = {}
+    for x, c in zip(x_of, cols, strict=True):
+        if not c.part:
+            continue
+        p = c.part
         ya, yb = y_of[p.nodes[0]], y_of[p.nodes[1]]
         top, bot = max(ya, yb), min(ya, yb)
-        for n in rails:  # gaps where the rung passes other rails
-            yn = y_of[n]
-            if bot < yn < top and n in spans and min(spans[n]) - 6 <= x <= max(spans[n]):
-                g.add(Line(x, yn, x, yn, strokeColor=colors.white, strokeWidth=0))
-                g.add(Rect(x - 3.5, yn - 1.5, 7, 3, fillColor=colors.white, strokeColor=None))
-        # the symbol sits in the first gap between rails, never on a rail it crosses
+        for _, yn in crossings(x, bot, top, p.nodes):  # the rail is broken where the rung passes
+            g.add(Rect(x - GAP, yn - 1.5, 2 * GAP, 3, fillColor=colors.white, strokeColor=None,
+                       strokeWidth=0))  # fmt: skip
         below = max((y_of[n] for n in rails if bot <= y_of[n] < top), default=bot)
         mid = (top + below) / 2
+        sym_y[p.name] = mid
         g.add(Line(x, top, x, mid + 11, strokeColor=ink, strokeWidth=1))
         g.add(Line(x, mid - 11, x, bot, strokeColor=ink, strokeWidth=1))
         g.add(_symbol(p, x, mid, ya > yb, font_name))
-        text = f"{p.name}  {p.label}"
-        room = top - below - 28
-        size = FONT
-        while stringWidth(text, font_name, size) > max(room, 30) and size > MIN_FONT / scale:
-            size -= 0.5
-        s = String(
-            0, 0, text, fontName=font_name, fontSize=size, fillColor=ink, textAnchor="middle"
-        )
-        lab = Group(s)
-        lab.translate(x + 15 + size * 0.1, mid)
-        lab.rotate(90)
-        g.add(lab)
+        for k, text in enumerate(c.lines):
+            s = String(0, 0, text, fontName=font_name, fontSize=FONT, fillColor=ink,
+                       textAnchor="middle")  # fmt: skip
+            lab = Group(s)
+            lab.translate(x + LABEL_DX + k * LINE_PITCH, mid)
+            lab.rotate(90)
+            g.add(lab)
+    # control connections (dashed, no current)
+    for x, c in zip(x_of, cols, strict=True):
+        if c.part is None and c.of is not None:
+            src = c.of
+            cp, cm = src.control_nodes  # type: ignore[misc]
+            ys = sym_y[src.name]
+            lo = min(y_of[cp], y_of[cm], ys)
+            hi = max(y_of[cp], y_of[cm], ys)
+            _dashed(g, [(x, lo), (x, hi)], crossings(x, lo, hi, (cp, cm)))
+            _dashed(g, [(x, ys), (x_part[src.name] - 9, ys)], [])
+            for n, mark in ((cp, "+"), (cm, "−")):
+                g.add(
+                    Circle(
+                        x, y_of[n], 1.8, fillColor=colors.white, strokeColor=ink, strokeWidth=0.8
+                    )
+                )
+                g.add(String(x - 8, y_of[n] + 2.5, mark, fontName=font_name, fontSize=FONT,
+                             fillColor=ink, textAnchor="middle"))  # fmt: skip
+        elif c.part is not None and c.part.control_element in x_part:
+            src, ctl = c.part, c.part.control_element
+            xc, xs_ = x_part[ctl], x
+            ctl_part = next(q for q in parts if q.name == ctl)
+            top_c = max(y_of[n] for n in ctl_part.nodes)
+            yr = top_c - 7
+            ys = sym_y[src.name]
+            g.add(Circle(xc, yr, 3.2, fillColor=None, strokeColor=ink, strokeWidth=0.7))
+            path = [(xc + 3.2, yr), (xs_ - 12, yr), (xs_ - 12, ys), (xs_ - 9, ys)]
+            cuts = crossings(xs_ - 12, min(yr, ys), max(yr, ys), ())
+            _dashed(g, path, cuts)
     # ground symbol under the reference rail
     yr, xr = y_of[reference], label_w + 4
     g.add(Line(xr, yr, xr, yr - 9, strokeColor=ink, strokeWidth=1))
     for k, half in enumerate((7, 4.5, 2)):
-        g.add(
-            Line(
-                xr - half, yr - 9 - 3 * k, xr + half, yr - 9 - 3 * k, strokeColor=ink, strokeWidth=1
-            )
-        )
-    g.scale(scale, scale)
-    return Drawing(full_w * scale, full_h * scale, g)
+        g.add(Line(xr - half, yr - 9 - 3 * k, xr + half, yr - 9 - 3 * k, strokeColor=ink,
+                   strokeWidth=1))  # fmt: skip
+    return Drawing(full_w, full_h, g)
+
+
+def _box(g: Group, x: float, y: float, ink) -> None:
+    g.add(Rect(x - 4.5, y - 11, 9, 22, fillColor=colors.white, strokeColor=ink, strokeWidth=1))
+
+
+def _circle(g: Group, x: float, y: float, ink) -> None:
+    g.add(Circle(x, y, 10, fillColor=colors.white, strokeColor=ink, strokeWidth=1))
+
+
+def _diamond(g: Group, x: float, y: float, ink) -> None:
+    g.add(Polygon([x, y + 11, x + 9, y, x, y - 11, x - 9, y], fillColor=colors.white,
+                  strokeColor=ink, strokeWidth=1))  # fmt: skip
+
+
+def _polarity(g: Group, x: float, y: float, a_on_top: bool, font: str, ink) -> None:
+    sa, sb = (5.5, -5.5) if a_on_top else (-5.5, 5.5)
+    for dy, mark in ((sa, "+"), (sb, "−")):
+        g.add(String(x, y + dy - 2.5, mark, fontName=font, fontSize=MIN_FONT,
+                     textAnchor="middle", fillColor=ink))  # fmt: skip
+
+
+def _arrow(g: Group, x: float, y: float, a_on_top: bool, ink) -> None:
+    """Current flows a → b: the arrow points at b."""
+    d = -1 if a_on_top else 1
+    g.add(Line(x, y - 6 * d, x, y + 5 * d, strokeColor=ink, strokeWidth=1))
+    g.add(Polygon([x, y + 7 * d, x - 3, y + 2.5 * d, x + 3, y + 2.5 * d], fillColor=ink,
+                  strokeColor=ink, strokeWidth=0.5))  # fmt: skip
+
+
+SymbolDrawer = Callable[[Group, float, float, bool, str, object], None]
+
+SYMBOLS: dict[str, SymbolDrawer] = {
+    "resistor": lambda g, x, y, top, font, ink: _box(g, x, y, ink),
+    "box": lambda g, x, y, top, font, ink: _box(g, x, y, ink),
+    "voltage_source": lambda g, x, y, top, font, ink: (
+        _circle(g, x, y, ink), _polarity(g, x, y, top, font, ink)),
+    "current_source": lambda g, x, y, top, font, ink: (
+        _circle(g, x, y, ink), _arrow(g, x, y, top, ink)),
+    "dependent_voltage": lambda g, x, y, top, font, ink: (
+        _diamond(g, x, y, ink), _polarity(g, x, y, top, font, ink)),
+    "dependent_current": lambda g, x, y, top, font, ink: (
+        _diamond(g, x, y, ink), _arrow(g, x, y, top, ink)),
+}  # fmt: skip
+"""Diagram symbols by the element table's ``drawing`` name: a new symbol is one entry."""
 
 
 def _symbol(p: DiagramPart, x: float, y: float, a_on_top: bool, font: str) -> Group:
     g = Group()
-    ink = colors.black
-    if p.kind == "resistor":
-        g.add(Rect(x - 4.5, y - 11, 9, 22, fillColor=colors.white, strokeColor=ink, strokeWidth=1))
-        return g
-    if p.kind in ("voltage_source", "current_source"):
-        g.add(Circle(x, y, 10, fillColor=colors.white, strokeColor=ink, strokeWidth=1))
-    else:
-        g.add(
-            Polygon(
-                [x, y + 11, x + 9, y, x, y - 11, x - 9, y],
-                fillColor=colors.white,
-                strokeColor=ink,
-                strokeWidth=1,
-            )
-        )
-    if p.kind in ("voltage_source", "vcvs", "ccvs"):
-        sa, sb = (5.5, -5.5) if a_on_top else (-5.5, 5.5)
-        g.add(
-            String(
-                x, y + sa - 2.5, "+", fontName=font, fontSize=7, textAnchor="middle", fillColor=ink
-            )
-        )
-        g.add(
-            String(
-                x, y + sb - 2.5, "−", fontName=font, fontSize=7, textAnchor="middle", fillColor=ink
-            )
-        )
-    else:  # current flows a -> b: the arrow points at b
-        d = -1 if a_on_top else 1
-        g.add(Line(x, y - 6 * d, x, y + 5 * d, strokeColor=ink, strokeWidth=1))
-        g.add(
-            Polygon(
-                [x, y + 7 * d, x - 3, y + 2.5 * d, x + 3, y + 2.5 * d],
-                fillColor=ink,
-                strokeColor=ink,
-                strokeWidth=0.5,
-            )
-        )
+    drawing = KINDS[p.kind].drawing if p.kind in KINDS else "box"
+    SYMBOLS.get(drawing, SYMBOLS["box"])(g, x, y, a_on_top, font, colors.black)
     return g

@@ -1,67 +1,77 @@
 """Mathtext for the engine's equation objects (layout only: no arithmetic on results).
 
-Each MNA equation is turned into breakable pieces of mathtext, in symbols
-(element names stand for their values) or with the values substituted.
-Terms of one element that share a divisor are written as one fraction,
-``(V_a − V_b)/R_1``, as a checker would write them by hand.
+One convention throughout: the quantity letters V and I are italic; every
+element and node name is upright and written as in the project file (no
+automatic subscripts); a product is written with a centre dot, so names
+never run together.  Each MNA equation becomes breakable pieces, in
+symbols (element names stand for their values) or with the values
+substituted; a number and its unit always stay in one piece.  Terms of one
+element that share a divisor are written as one fraction,
+``(V_a − V_b)/R1``, as a checker would write them by hand.
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
+from typing import Any
 
-from calcdoc.format import VALUE_UNITS, eng
-from calcdoc.report.mathtext import tex_name
-from calcdoc.results import Equation, Term
+from calcdoc.format import eng, number
+
+_SUPER = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻", "0123456789-")
+
+
+def _escape(name: str) -> str:
+    return (
+        name.replace("\\", "")
+        .replace("$", "")
+        .replace("{", "")
+        .replace("}", "")
+        .replace("_", r"\_")
+    )
+
+
+def tex_name(name: str) -> str:
+    """An element or node name, upright and as written: ``R12`` → ``\\mathrm{R12}``."""
+    return r"\mathrm{" + _escape(name) + "}"
 
 
 def tex_unknown(u: str) -> str:
-    """``V(in)`` → ``V_{in}``; ``I(PSU)`` → ``I_{PSU}``."""
+    """``V(in)`` → ``V_{\\mathrm{in}}``; ``I(PSU)`` → ``I_{\\mathrm{PSU}}``."""
     head, _, rest = u.partition("(")
-    inner = rest[:-1]
-    esc = (
-        inner.replace("\\", "")
-        .replace("_", r"\_")
-        .replace("{", "")
-        .replace("}", "")
-        .replace("$", "")
-    )
-    return f"{head}_{{\\mathrm{{{esc}}}}}"
+    return f"{head}_{{{tex_name(rest[:-1])}}}"
+
+
+def tex_number(value: float, sig: int) -> str:
+    """A plain number in mathtext, ``1.994\\times10^{-6}`` beyond 0.001 … 9999."""
+    text = number(value, sig).replace("−", "-")
+    if "×" in text:
+        mant, _, exp = text.partition(" × 10")
+        return f"{mant}\\times 10^{{{exp.translate(_SUPER)}}}"
+    return text
 
 
 def tex_quantity(value: float, unit: str, sig: int) -> str:
-    """A value with its unit in mathtext (``4.7\\,\\mathrm{k}\\Omega``)."""
+    """A value with its unit in mathtext (``4.700\\,\\mathrm{k}\\Omega``), one unbreakable piece."""
     if unit in ("V/V", "A/A", ""):
-        text = f"{float(value):.{sig}g}"
-        return text.replace("e", r"\times 10^{") + "}" if "e" in text else text
+        return tex_number(value, sig)
     s = eng(value, unit, sig).replace("−", "-")
     num, _, u = s.partition(" ")
-    u = u.replace("Ω", r"\Omega").replace("µ", r"\mu ")
-    if u.startswith(r"\mu "):
-        u = (
-            r"\mu\mathrm{"
-            + u[4:].replace(r"\Omega", "}\\Omega").rstrip()
-            + ("}" if r"\Omega" not in u else "")
-        )
-        u = u.replace(r"\mathrm{}", "")
-    elif r"\Omega" in u:
-        pre = u.replace(r"\Omega", "")
-        u = (r"\mathrm{" + pre + "}" if pre else "") + r"\Omega"
-    else:
-        u = r"\mathrm{" + u + "}"
-    return f"{num}\\,{u}"
+    prefix, sym = (u[: -len(unit)], unit) if u.endswith(unit) else (u, "")
+    sym_tex = r"\Omega" if sym == "Ω" else (r"\mathrm{" + sym + "}" if sym else "")
+    pre_tex = r"\mu" if prefix == "µ" else (r"\mathrm{" + prefix + "}" if prefix else "")
+    return f"{num}\\,{pre_tex}{sym_tex}"
 
 
-def _sym(name: str, values, kinds, sig: int, paren: bool = True) -> str:
+def _sym(name: str, values, units, sig: int, paren: bool = True) -> str:
     if values is None:
         return tex_name(name)
-    unit = VALUE_UNITS[kinds[name]] if kinds else ""
+    unit = units[name] if units else ""
     q = tex_quantity(float(values[name]), unit, sig)
     return f"({q})" if paren else q
 
 
-def _groups(terms: tuple[Term, ...]) -> list[list[Term]]:
-    out: list[list[Term]] = []
+def _groups(terms: Sequence[Any]) -> list[list[Any]]:
+    out: list[list[Any]] = []
     for t in terms:
         c = t.coefficient
         if (
@@ -79,13 +89,13 @@ def _groups(terms: tuple[Term, ...]) -> list[list[Term]]:
     return out
 
 
-def _side(terms, values, kinds, sig) -> list[str]:
+def _side(terms, values, units, sig) -> list[str]:
     if not terms:
         return ["0"]
     pieces = []
     for k, group in enumerate(_groups(terms)):
         c0 = group[0].coefficient
-        lead = group[0].coefficient.sign
+        lead = c0.sign
         if len(group) == 1:
             body = tex_unknown(group[0].unknown) if group[0].unknown else ""
         else:
@@ -96,43 +106,51 @@ def _side(terms, values, kinds, sig) -> list[str]:
                     ("" if i == 0 else (" + " if s > 0 else " - ")) + tex_unknown(t.unknown)
                 )
             body = "".join(parts)
-        num = _sym(c0.numerator, values, kinds, sig) if c0.numerator else ""
+        num = _sym(c0.numerator, values, units, sig) if c0.numerator else ""
+        dot = r" \cdot "
+        if len(group) > 1:
+            inner = "(" + body + ")"
+            top = num + dot + inner if num else body
+        else:
+            top = (num + dot + body) if (num and body) else (num or body)
         if c0.denominator:
-            top = (num + (r"\," if num and body else "") + (body or "")) or "1"
-            if len(group) > 1 and num:
-                top = num + r"\,(" + body + ")"
             text = (
-                r"\frac{" + top + "}{" + _sym(c0.denominator, values, kinds, sig, paren=False) + "}"
-            )
-        elif num:
-            text = num + (
-                (r"\,(" + body + ")") if len(group) > 1 else (r"\," + body if body else "")
+                r"\frac{"
+                + (top or "1")
+                + "}{"
+                + _sym(c0.denominator, values, units, sig, paren=False)
+                + "}"
             )
         else:
-            text = body if len(group) == 1 else "(" + body + ")"
+            text = top if (len(group) == 1 or num) else "(" + body + ")"
         sign = "-" if lead < 0 else "+"
         pieces.append((sign + " " + text) if (k or sign == "-") else text)
     return pieces
 
 
-def equation_pieces(
-    eq: Equation,
-    values: Mapping[str, float] | None = None,
-    kinds: Mapping[str, str] | None = None,
-    sig: int = 4,
-) -> list[str]:
+def equation_pieces(eq, values: Mapping[str, float] | None = None,
+                    units: Mapping[str, str] | None = None, sig: int = 4) -> list[str]:  # fmt: skip
     """Breakable mathtext pieces of ``lhs = rhs``.
 
     Parameters
     ----------
     eq : Equation
+        An MNA equation object (``lhs`` and ``rhs`` terms).
     values : mapping, optional
         Element values to substitute for the symbols.
-    kinds : mapping, optional
-        Element types (for the value units).
+    units : mapping, optional
+        The unit of each symbol (for the substituted values).
     sig : int
         Significant figures of substituted values.
     """
-    left = _side(eq.lhs, values, kinds, sig)
-    right = _side(eq.rhs, values, kinds, sig)
+    left = _side(eq.lhs, values, units, sig)
+    right = _side(eq.rhs, values, units, sig)
     return [*left, "= " + right[0], *right[1:]]
+
+
+def closed_form_tex(expr) -> str:
+    """A sympy expression with upright names and centre-dot products."""
+    import sympy
+
+    names = {s: tex_name(s.name) for s in expr.free_symbols}
+    return sympy.latex(expr, symbol_names=names, mul_symbol="dot")

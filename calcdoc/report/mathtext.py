@@ -138,21 +138,3 @@ class MathLines(Flowable):
                 c.drawText(t)
                 first = False
             y -= d + 0.175 * self.size
-
-
-def tex_name(name: str) -> str:
-    """A node or element name for mathtext: ``R12`` → ``R_{12}``; others upright."""
-    esc = (
-        name.replace("\\", "")
-        .replace("_", r"\_")
-        .replace("$", "")
-        .replace("{", "")
-        .replace("}", "")
-    )
-    head = name.rstrip("0123456789")
-    tail = name[len(head) :]
-    if head.isalpha() and len(head) <= 3 and tail:
-        return f"{head}_{{{tail}}}"
-    if name.isalpha() and len(name) == 1:
-        return name
-    return r"\mathrm{" + esc + "}"
