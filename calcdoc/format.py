@@ -118,6 +118,8 @@ def signed(x: float, sig: int = 4) -> str:
 
 
 UNITS = {"voltage": "V", "current": "A", "power": "W", "node voltage": "V", "node": "V"}
+
+
 def value_text(unit: str, value: float, sig: int = 4) -> str:
     """A value with its unit (``"Ω"``); a ratio (``V/V``, ``A/A``) printed plain with it."""
     if unit in ("V/V", "A/A", ""):
