@@ -6,6 +6,8 @@ import calcdoc
 
 
 def run(args, term) -> int:
-    results = calcdoc.solve(calcdoc.load(args.file))
+    project = calcdoc.load(args.file)
+    term.project_warnings(project)
+    results = calcdoc.solve(project)
     term.check_summary(results)
     return 1 if results.failed else 0

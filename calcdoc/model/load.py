@@ -12,6 +12,7 @@ import difflib
 import hashlib
 import re
 from collections.abc import Callable, Mapping
+from dataclasses import replace
 from fractions import Fraction
 from pathlib import Path
 from typing import Any
@@ -49,6 +50,7 @@ from calcdoc.model.quantities import (
     AMPERE,
     KELVIN,
     NONE,
+    PHYSICAL_MAX,
     VOLT,
     WATT,
     Dimension,
@@ -56,6 +58,7 @@ from calcdoc.model.quantities import (
     QuantityError,
     dim_div,
     dimension_name,
+    outside_physical_range,
     parse_temperature,
 )
 
@@ -84,6 +87,27 @@ ELEMENT_KEYS = (
 )  # fmt: skip
 RATING_KEYS = {"power": WATT, "voltage": VOLT, "current": AMPERE}
 
+# ---------------------------------------------------------------- limits
+# Resource caps, stated in the README ("Security and limits") and checked
+# before the work they bound.
+MAX_FILE_BYTES = 20_000_000
+MAX_ELEMENTS = 200_000
+MAX_NODES = 200_000
+MAX_PARAMETERS = 10_000
+MAX_CASES = 200
+MAX_SWEEPS = 50
+MAX_LIST_ITEMS = 200  # assumptions, references, history entries
+MAX_NAME_CHARS = 100  # element, node and parameter names
+#: Monte Carlo: samples x (nodes + elements), the size of the sampled results.
+MAX_SAMPLE_VALUES = 10_000_000
+#: Characters per text field: short fields by default, these keys longer.
+MAX_TEXT_CHARS = 200
+LONG_TEXT_KEYS = {
+    "description": 2_000, "source": 2_000, "basis": 2_000,
+    "purpose": 20_000, "scope": 20_000, "conclusion": 20_000,
+    "assumptions": 2_000, "references": 2_000,
+}  # fmt: skip
+
 
 class _Faults:
     def __init__(self) -> None:
@@ -96,6 +120,8 @@ class _Faults:
 
 
 def _hint(word: str, choices: Any) -> str:
+    if len(word) > MAX_NAME_CHARS or len(choices) > 5_000:
+        return ""  # a hint is not worth a quadratic search
     cutoff = 0.5 if len(word) <= 3 else 0.6
     close = difflib.get_close_matches(word, list(choices), n=1, cutoff=cutoff)
     return f" (did you mean {close[0]!r}?)" if close else ""
@@ -121,6 +147,10 @@ def _table(value: Any, path: str, faults: _Faults) -> dict[str, Any]:
 
 
 def _kind(value: Any) -> str:
+    if isinstance(value, float) and value != value:
+        return "not a number (nan)"
+    if isinstance(value, float) and value in (float("inf"), float("-inf")):
+        return "infinity (inf)"
     return {
         str: "a string", bool: "true/false", int: "an integer", float: "a number",
         list: "an array", dict: "a table", dt.date: "a date", dt.datetime: "a date-time",
@@ -132,17 +162,29 @@ def _text(table: Mapping[str, Any], key: str, path: str, faults: _Faults, defaul
     if not isinstance(value, str):
         faults.add(_join(path, key), f"expected a string, found {_kind(value)}")
         return default
-    return value
+    return value if _short_enough(value, key, _join(path, key), faults) else default
+
+
+def _short_enough(value: str, key: str, path: str, faults: _Faults) -> bool:
+    limit = LONG_TEXT_KEYS.get(key, MAX_TEXT_CHARS)
+    if len(value) > limit:
+        faults.add(path, f"the text is {len(value):,} characters long; the limit is {limit:,}")
+        return False
+    return True
 
 
 def _texts(table: Mapping[str, Any], key: str, path: str, faults: _Faults) -> tuple[str, ...]:
     value = table.get(key, [])
     if isinstance(value, str):
-        return (value,)
+        value = [value]
     if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
         faults.add(_join(path, key), "expected an array of strings")
         return ()
-    return tuple(value)
+    if len(value) > MAX_LIST_ITEMS:
+        faults.add(_join(path, key), f"{len(value):,} entries; the limit is {MAX_LIST_ITEMS}")
+        return ()
+    ok = [_short_enough(v, key, f"{_join(path, key)}[{i}]", faults) for i, v in enumerate(value)]
+    return tuple(value) if all(ok) else ()
 
 
 def _date(table: Mapping[str, Any], key: str, path: str, faults: _Faults) -> dt.date | None:
@@ -172,6 +214,15 @@ def _number(value: Any) -> Fraction | None:
             return None
         return Fraction(repr(value))
     return None
+
+
+def _representable(q: Quantity, path: str, faults: _Faults) -> bool:
+    """The value must be one a physical quantity can have (1e-30 to 1e30 in SI, or zero)."""
+    why = outside_physical_range(q.magnitude)
+    if why:
+        faults.add(path, why)
+        return False
+    return True
 
 
 def _quantity(value: Any, dim: Dimension, path: str, faults: _Faults) -> Quantity | None:
@@ -232,6 +283,9 @@ def _temperature(value: Any, path: str, faults: _Faults) -> Fraction | None:
     if t < Fraction("-273.15"):
         faults.add(path, "below absolute zero")
         return None
+    if t > PHYSICAL_MAX:
+        faults.add(path, "the temperature is too high to be a physical value")
+        return None
     return t
 
 
@@ -281,6 +335,9 @@ def _derating(value: Any, path: str, faults: _Faults) -> Derating | None:
 
 
 def _name_ok(name: str, path: str, faults: _Faults, what: str) -> bool:
+    if isinstance(name, str) and len(name) > MAX_NAME_CHARS:
+        faults.add(path[:60] + "...", f"a {what} name is at most {MAX_NAME_CHARS} characters long")
+        return False
     if not isinstance(name, str) or not NAME_RE.fullmatch(name):
         faults.add(path, f"{what} name {name!r} may hold only letters, digits, '_', '-' and '.'")
         return False
@@ -297,6 +354,9 @@ def _document(raw: Any, faults: _Faults) -> Document:
     hist = t.get("history", [])
     if not isinstance(hist, list):
         faults.add("document.history", "expected an array of tables ([[document.history]])")
+        hist = []
+    elif len(hist) > MAX_LIST_ITEMS:
+        faults.add("document.history", f"{len(hist):,} entries; the limit is {MAX_LIST_ITEMS}")
         hist = []
     for i, h in enumerate(hist):
         path = f"document.history[{i}]"
@@ -362,6 +422,9 @@ def _parameters(raw: Any, faults: _Faults) -> tuple[dict[str, Quantity], list[Pa
                 faults.add(path, "missing key 'value'")
                 continue
             spec, path = spec["value"], f"{path}.value"
+        if isinstance(spec, float) and _number(spec) is None:
+            faults.add(path, f"{_kind(spec)} is not a value a physical quantity can have")
+            continue
         if isinstance(spec, (int, float)) and not isinstance(spec, bool):
             spec = repr(spec)
         if not isinstance(spec, str):
@@ -374,41 +437,7 @@ def _parameters(raw: Any, faults: _Faults) -> tuple[dict[str, Quantity], list[Pa
             continue
         entries[name] = (spec, expr, tol_raw, desc)
 
-    values: dict[str, Quantity] = {}
-    state: dict[str, int] = {}  # 1 visiting, 2 done
-    failed: set[str] = set()
-
-    def visit(name: str, chain: list[str]) -> None:
-        if state.get(name) == 2:
-            return
-        if state.get(name) == 1:
-            cycle = chain[chain.index(name) :] + [name]
-            faults.add(
-                f"parameters.{name}",
-                "parameters refer to each other in a cycle: " + " → ".join(cycle),
-            )
-            failed.update(cycle)
-            return
-        state[name] = 1
-        text, expr, _, _ = entries[name]
-        for dep in sorted(names_in(expr)):
-            if dep not in entries:
-                faults.add(f"parameters.{name}", f"unknown parameter {dep!r}{_hint(dep, entries)}")
-                failed.add(name)
-            else:
-                visit(dep, [*chain, name])
-                if dep in failed:
-                    failed.add(name)
-        state[name] = 2
-        if name not in failed:
-            try:
-                values[name] = evaluate(expr, values)
-            except ExpressionError as exc:
-                faults.add(f"parameters.{name}", str(exc))
-                failed.add(name)
-
-    for name in entries:
-        visit(name, [])
+    values = _resolve_parameters(entries, faults)
     params = []
     for name, (text, expr, tol_raw, desc) in entries.items():
         if name in values:
@@ -417,7 +446,74 @@ def _parameters(raw: Any, faults: _Faults) -> tuple[dict[str, Quantity], list[Pa
     return values, params
 
 
+def _resolve_parameters(entries: Mapping[str, tuple[str, Node, Any, str]], faults: _Faults):
+    """Evaluate parameters in dependency order: an iterative depth-first walk.
+
+    No recursion per parameter, so thousands of parameters defined in any
+    order resolve without exhausting the interpreter's stack.
+    """
+    values: dict[str, Quantity] = {}
+    state: dict[str, int] = {}  # 1 on the current chain, 2 done
+    failed: set[str] = set()
+
+    def deps(name: str):
+        return iter(sorted(names_in(entries[name][1])))
+
+    for root in entries:
+        if state.get(root):
+            continue
+        state[root] = 1
+        chain, pending = [root], [deps(root)]
+        while chain:
+            name = chain[-1]
+            dep = next(pending[-1], None)
+            if dep is None:  # every dependency seen: evaluate this one
+                chain.pop()
+                pending.pop()
+                state[name] = 2
+                if name not in failed:
+                    _evaluate_parameter(name, entries[name][1], values, faults, failed)
+                if chain and name in failed:
+                    failed.add(chain[-1])
+            elif dep not in entries:
+                faults.add(f"parameters.{name}", f"unknown parameter {dep!r}{_hint(dep, entries)}")
+                failed.add(name)
+            elif state.get(dep) == 2:
+                if dep in failed:
+                    failed.add(name)
+            elif state.get(dep) == 1:
+                cycle = [*chain[chain.index(dep) :], dep]
+                faults.add(
+                    f"parameters.{dep}",
+                    "parameters refer to each other in a cycle: " + " → ".join(cycle),
+                )
+                failed.update(cycle)
+            else:
+                state[dep] = 1
+                chain.append(dep)
+                pending.append(deps(dep))
+    return values
+
+
+def _evaluate_parameter(
+    name: str, expr: Node, values: dict[str, Quantity], faults: _Faults, failed: set[str]
+) -> None:
+    try:
+        q = evaluate(expr, values)
+    except ExpressionError as exc:
+        faults.add(f"parameters.{name}", str(exc))
+        failed.add(name)
+        return
+    if _representable(q, f"parameters.{name}", faults):
+        values[name] = q
+    else:
+        failed.add(name)
+
+
 def _value_expr(value: Any, path: str, faults: _Faults, dim: Dimension) -> tuple[str, Node] | None:
+    if isinstance(value, float) and _number(value) is None:
+        faults.add(path, f"{_kind(value)} is not a value a physical quantity can have")
+        return None
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         if dim != NONE:
             faults.add(path, f"write the value with its unit, such as {_example(dim)}")
@@ -431,21 +527,6 @@ def _value_expr(value: Any, path: str, faults: _Faults, dim: Dimension) -> tuple
     except (ExpressionError, QuantityError) as exc:
         faults.add(path, str(exc))
         return None
-
-
-def _representable(q: Quantity, path: str, faults: _Faults) -> bool:
-    """The value must fit a float64 (solving and reporting use floats)."""
-    try:
-        f = abs(float(q.magnitude))
-    except OverflowError:
-        f = float("inf")
-    if f > 1e200:
-        faults.add(path, "the value is too large to compute with (above 1e200 in SI units)")
-        return False
-    if q.magnitude != 0 and f < 1e-200:
-        faults.add(path, "the value is too small to compute with (below 1e-200 in SI units)")
-        return False
-    return True
 
 
 def _resolved(
@@ -925,6 +1006,13 @@ def _toml(text: str, faults: _Faults) -> dict[str, Any] | None:
     except RecursionError:
         faults.add("", "TOML syntax error: nested too deeply")
         return None
+    except ValueError as exc:  # e.g. an integer of thousands of digits
+        faults.add("", f"TOML value that cannot be read: {_plain(str(exc))}")
+        return None
+
+
+def _plain(message: str) -> str:
+    return "a number has too many digits" if "digits" in message else "unreadable value"
 
 
 def _declared_nodes(raw: Any) -> set[str]:
@@ -973,7 +1061,14 @@ def parse_project(source: bytes | str, path: str = "<input>") -> Project:
     >>> [e.name for e in p.elements], p.nodes
     (['V1', 'R1', 'R2'], ('gnd', 'in', 'out'))
     """
-    raw_bytes = source.encode("utf-8") if isinstance(source, str) else bytes(source)
+    if len(source) > MAX_FILE_BYTES:
+        raise ProjectError([Fault("", _too_big(len(source)))], path)
+    try:
+        raw_bytes = source.encode("utf-8") if isinstance(source, str) else bytes(source)
+    except UnicodeEncodeError as exc:
+        raise ProjectError(
+            [Fault("", f"the text is not valid Unicode (character {exc.start + 1})")], path
+        ) from None
     faults = _Faults()
     try:
         text = raw_bytes.decode("utf-8")
@@ -981,9 +1076,10 @@ def parse_project(source: bytes | str, path: str = "<input>") -> Project:
         raise ProjectError(
             [Fault("", f"the file is not UTF-8 text (byte {exc.start + 1})")], path
         ) from None
-    data = _toml(text, faults)
+    data = _toml(text.removeprefix("\ufeff"), faults)  # a byte-order mark is accepted
     if data is None:
         raise ProjectError(faults.items, path)
+    _check_counts(data, path)
     _keys(data, TOP_KEYS, "", faults)
     schema = data.get("schema", 1)
     if schema != 1 or isinstance(schema, bool):
@@ -1041,9 +1137,70 @@ def parse_project(source: bytes | str, path: str = "<input>") -> Project:
         report=report,
     )
     _check_case_values(project, faults)
+    _check_sample_size(project, faults)
     if faults.items:
         raise ProjectError(faults.items, path)
-    return project
+    warnings = _case_clashes("element", [e.name for e in project.elements])
+    warnings += _case_clashes("node", list(project.nodes))
+    return replace(project, warnings=tuple(warnings)) if warnings else project
+
+
+def _too_big(size: int, *, at_least: bool = False) -> str:
+    size_text = f"more than {MAX_FILE_BYTES:,}" if at_least else f"{size:,}"
+    return (
+        f"the file is {size_text} bytes; the limit for a project file is "
+        f"{MAX_FILE_BYTES:,} bytes ({MAX_FILE_BYTES // 1_000_000} MB)"
+    )
+
+
+def _check_counts(data: Mapping[str, Any], path: str) -> None:
+    """Refuse oversized sections before any work is spent on them (one fault each)."""
+    over = []
+    for key, limit, what in (
+        ("elements", MAX_ELEMENTS, "elements"),
+        ("parameters", MAX_PARAMETERS, "parameters"),
+        ("cases", MAX_CASES, "cases"),
+        ("sweeps", MAX_SWEEPS, "sweeps"),
+    ):
+        section = data.get(key)
+        if isinstance(section, (dict, list)) and len(section) > limit:
+            over.append(Fault(key, f"{len(section):,} {what}; the limit is {limit:,}"))
+    elements = data.get("elements")
+    if not over and isinstance(elements, dict):
+        nodes = _declared_nodes(elements)
+        if len(nodes) > MAX_NODES:
+            over.append(Fault("elements", f"{len(nodes):,} nodes; the limit is {MAX_NODES:,}"))
+    if over:
+        raise ProjectError(over, path)
+
+
+def _check_sample_size(project: Project, faults: _Faults) -> None:
+    """Monte Carlo keeps every sample's results: cap samples x (nodes + elements)."""
+    a = project.analysis
+    if a.tolerance != "montecarlo":
+        return
+    size = len(project.nodes) + len(project.elements)
+    if a.samples * size > MAX_SAMPLE_VALUES:
+        faults.add(
+            "analysis.samples",
+            f"{a.samples:,} samples of {len(project.nodes):,} nodes and "
+            f"{len(project.elements):,} elements exceed the limit of "
+            f"samples x (nodes + elements) = {MAX_SAMPLE_VALUES:,}; "
+            f"use at most {max(MAX_SAMPLE_VALUES // size, 0):,} samples",
+        )
+
+
+def _case_clashes(what: str, names: list[str]) -> list[str]:
+    """Warnings for names that differ only in upper and lower case."""
+    groups: dict[str, list[str]] = {}
+    for n in names:
+        groups.setdefault(n.casefold(), []).append(n)
+    return [
+        f"{what} names {', '.join(repr(n) for n in group)} differ only in upper and lower case; "
+        "they are different names, but a reader may take them for one"
+        for group in groups.values()
+        if len(set(group)) > 1
+    ]
 
 
 def _check_case_values(project: Project, faults: _Faults) -> None:
@@ -1075,9 +1232,21 @@ def read_project(path: str | Path, *, reader: Callable[[Path], bytes] | None = N
     """
     p = Path(path)
     try:
-        data = reader(p) if reader else p.read_bytes()
+        data = reader(p) if reader else _read_bounded(p)
     except OSError as exc:
         raise ProjectError(
             [Fault("", f"cannot read the file: {exc.strerror or exc}")], str(path)
         ) from None
     return parse_project(data, str(path))
+
+
+def _read_bounded(path: Path) -> bytes:
+    """The file's bytes; a file over the size cap is refused before it is read."""
+    size = path.stat().st_size
+    if size > MAX_FILE_BYTES:
+        raise ProjectError([Fault("", _too_big(size))], str(path))
+    with path.open("rb") as fh:  # a device or pipe has no size: read at most one byte more
+        data = fh.read(MAX_FILE_BYTES + 1)
+    if len(data) > MAX_FILE_BYTES:
+        raise ProjectError([Fault("", _too_big(len(data), at_least=True))], str(path))
+    return data

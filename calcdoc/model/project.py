@@ -214,6 +214,8 @@ class Project:
     analysis: Analysis
     sweeps: tuple[Sweep, ...] = ()
     report: ReportSettings = field(default_factory=ReportSettings)
+    #: Things worth a reader's attention that are not errors (names differing only in case).
+    warnings: tuple[str, ...] = ()
 
     def element(self, name: str) -> Element:
         for e in self.elements:
