@@ -96,22 +96,35 @@ MAX_NODES = 200_000
 MAX_PARAMETERS = 10_000
 MAX_CASES = 200
 MAX_SWEEPS = 50
-MAX_LIST_ITEMS = 200  # assumptions, references, history entries
+MAX_OUTPUTS = 100  # outputs named in one sensitivity or sweep list
+MAX_LINE_CHARS = 12_000  # the package prints the input file verbatim, line by line
+MAX_LINES = 1_000_000
+MAX_TABLES = 250_000  # [table] and [[array]] headers
+_TABLE_HEADER = re.compile(r"^[ \t]*\[", re.MULTILINE)
+MAX_LIST_ITEMS = 100  # assumptions, references, history entries
 MAX_NAME_CHARS = 100  # element, node and parameter names
 #: Monte Carlo: samples x (nodes + elements), the size of the sampled results.
 MAX_SAMPLE_VALUES = 10_000_000
-#: Characters per text field: short fields by default, these keys longer.
+#: Characters per text field, by key (``MAX_TEXT_CHARS`` for any other).
 MAX_TEXT_CHARS = 200
-LONG_TEXT_KEYS = {
-    "description": 2_000, "source": 2_000, "basis": 2_000,
-    "purpose": 20_000, "scope": 20_000, "conclusion": 20_000,
-    "assumptions": 2_000, "references": 2_000,
+TEXT_LIMITS = {
+    "number": 40, "revision": 20, "name": 100,
+    "description": 500, "source": 500, "basis": 500, "seal": 1_000, "template": 1_000,
+    "assumptions": 1_000, "references": 1_000,
+    "purpose": 10_000, "scope": 10_000, "conclusion": 10_000,
 }  # fmt: skip
 
 
 class _Faults:
     def __init__(self) -> None:
         self.items: list[Fault] = []
+        self.hints_left = 100  # "did you mean" is worth a search for the first faults only
+
+    def hint(self, word: str, choices: Any) -> str:
+        if self.hints_left <= 0:
+            return ""
+        self.hints_left -= 1
+        return _hint(word, choices)
 
     def add(
         self, path: str, message: str, line: int | None = None, column: int | None = None
@@ -128,9 +141,13 @@ def _hint(word: str, choices: Any) -> str:
 
 
 def _keys(table: Mapping[str, Any], allowed: Any, path: str, faults: _Faults) -> None:
-    for key in table:
-        if key not in allowed:
-            faults.add(f"{path}.{key}" if path else key, f"unknown key{_hint(key, allowed)}")
+    unknown = [key for key in table if key not in allowed]
+    if len(unknown) > 10:  # one fault for a flood of keys
+        shown = ", ".join(repr(k[:40]) for k in unknown[:5])
+        faults.add(path or "(top level)", f"{len(unknown):,} unknown keys: {shown}, ...")
+        return
+    for key in unknown:
+        faults.add(f"{path}.{key}" if path else key, f"unknown key{faults.hint(key, allowed)}")
 
 
 def _join(path: str, key: str) -> str:
@@ -166,7 +183,7 @@ def _text(table: Mapping[str, Any], key: str, path: str, faults: _Faults, defaul
 
 
 def _short_enough(value: str, key: str, path: str, faults: _Faults) -> bool:
-    limit = LONG_TEXT_KEYS.get(key, MAX_TEXT_CHARS)
+    limit = TEXT_LIMITS.get(key, MAX_TEXT_CHARS)
     if len(value) > limit:
         faults.add(path, f"the text is {len(value):,} characters long; the limit is {limit:,}")
         return False
@@ -476,7 +493,9 @@ def _resolve_parameters(entries: Mapping[str, tuple[str, Node, Any, str]], fault
                 if chain and name in failed:
                     failed.add(chain[-1])
             elif dep not in entries:
-                faults.add(f"parameters.{name}", f"unknown parameter {dep!r}{_hint(dep, entries)}")
+                faults.add(
+                    f"parameters.{name}", f"unknown parameter {dep!r}{faults.hint(dep, entries)}"
+                )
                 failed.add(name)
             elif state.get(dep) == 2:
                 if dep in failed:
@@ -551,7 +570,7 @@ def _resolved(
         if dep not in params:
             if dep in known_params:
                 return None  # the parameter's own fault is already reported
-            faults.add(path, f"unknown parameter {dep!r}{_hint(dep, known_params)}")
+            faults.add(path, f"unknown parameter {dep!r}{faults.hint(dep, known_params)}")
             return None
     try:
         q = evaluate(expr, params)
@@ -740,7 +759,7 @@ def _limits(raw: Any, faults: _Faults, nodes: set[str], declared_nodes: Any = ()
         path = f"limits.nodes.{node}"
         if node not in nodes:
             if node not in declared_nodes:
-                faults.add(path, f"no such node{_hint(node, nodes)}")
+                faults.add(path, f"no such node{faults.hint(node, nodes)}")
             continue
         spec = _table(spec, path, faults)
         _keys(spec, ("min", "max"), path, faults)
@@ -795,7 +814,7 @@ def _cases(
             else:
                 if target not in declared:
                     faults.add(
-                        spath, f"no element or parameter of that name{_hint(target, targets)}"
+                        spath, f"no element or parameter of that name{faults.hint(target, targets)}"
                     )
                 continue
             ve = _value_expr(value, spath, faults, dim)
@@ -828,16 +847,20 @@ def _outputs(
     if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
         faults.add(path, 'expected an array of output names, such as ["field", "Rs.power"]')
         return ()
+    if len(value) > MAX_OUTPUTS:
+        faults.add(path, f"{len(value):,} outputs; the limit is {MAX_OUTPUTS}")
+        return ()
     good = []
     for i, v in enumerate(value):
         subject, q = parse_output(v)
         if (q == "node" and subject in nodes) or (q != "node" and subject in elements):
             good.append(v)
         else:
-            choices = [*nodes, *(f"{e}.power" for e in elements)]
+            hint = ""
+            if faults.hints_left > 0:
+                hint = faults.hint(v, [*nodes, *(f"{e}.power" for e in elements)])
             faults.add(
-                f"{path}[{i}]",
-                f"{v!r} is neither a node nor ELEMENT.voltage/current/power{_hint(v, choices)}",
+                f"{path}[{i}]", f"{v!r} is neither a node nor ELEMENT.voltage/current/power{hint}"
             )
     return tuple(good)
 
@@ -861,7 +884,7 @@ def _analysis(
     if method not in TOLERANCE_METHODS:
         faults.add(
             "analysis.tolerance",
-            f"expected one of {', '.join(TOLERANCE_METHODS)}{_hint(str(method), TOLERANCE_METHODS)}",
+            f"expected one of {', '.join(TOLERANCE_METHODS)}{faults.hint(str(method), TOLERANCE_METHODS)}",
         )
     else:
         kw["tolerance"] = method
@@ -914,7 +937,7 @@ def _sweeps(
         else:
             faults.add(
                 f"{path}.target",
-                f"no element or parameter of that name{_hint(str(target), [*elements, *params])}",
+                f"no element or parameter of that name{faults.hint(str(target), [*elements, *params])}",
             )
             continue
         missing = [k for k in ("from", "to", "outputs") if k not in spec]
@@ -956,7 +979,9 @@ def _report(raw: Any, faults: _Faults) -> ReportSettings:
         kw["template"] = _text(t, "template", "report", faults, "standard")
     if "paper" in t:
         if t["paper"] not in PAPERS:
-            faults.add("report.paper", f'expected "A4" or "Letter"{_hint(str(t["paper"]), PAPERS)}')
+            faults.add(
+                "report.paper", f'expected "A4" or "Letter"{faults.hint(str(t["paper"]), PAPERS)}'
+            )
         else:
             kw["paper"] = t["paper"]
     if "significant_figures" in t:
@@ -975,17 +1000,19 @@ def _check_references(elements: list[Element], reference: str, faults: _Faults) 
     if elements and reference not in nodes:
         faults.add(
             "circuit.reference",
-            f"reference node {reference!r} is not a terminal of any element{_hint(reference, nodes)}",
+            f"reference node {reference!r} is not a terminal of any element{faults.hint(reference, nodes)}",
         )
     for e in elements:
         if e.control_nodes:
             for n in e.control_nodes:
                 if n not in nodes:
-                    faults.add(f"elements.{e.name}.control", f"no such node {n!r}{_hint(n, nodes)}")
+                    faults.add(
+                        f"elements.{e.name}.control", f"no such node {n!r}{faults.hint(n, nodes)}"
+                    )
         if e.control_element and e.control_element not in names:
             faults.add(
                 f"elements.{e.name}.control",
-                f"no such element {e.control_element!r}{_hint(e.control_element, names)}",
+                f"no such element {e.control_element!r}{faults.hint(e.control_element, names)}",
             )
 
 
@@ -1076,7 +1103,9 @@ def parse_project(source: bytes | str, path: str = "<input>") -> Project:
         raise ProjectError(
             [Fault("", f"the file is not UTF-8 text (byte {exc.start + 1})")], path
         ) from None
-    data = _toml(text.removeprefix("\ufeff"), faults)  # a byte-order mark is accepted
+    text = text.removeprefix("\ufeff")  # a byte-order mark is accepted
+    _check_lines(text, path)
+    data = _toml(text, faults)
     if data is None:
         raise ProjectError(faults.items, path)
     _check_counts(data, path)
@@ -1151,6 +1180,37 @@ def _too_big(size: int, *, at_least: bool = False) -> str:
         f"the file is {size_text} bytes; the limit for a project file is "
         f"{MAX_FILE_BYTES:,} bytes ({MAX_FILE_BYTES // 1_000_000} MB)"
     )
+
+
+def _check_lines(text: str, path: str) -> None:
+    """Refuse, before parsing, a file with too many lines or tables, or a line too long.
+
+    Parsing time and memory grow with the number of TOML tables and keys;
+    the package prints every line of the input verbatim.
+    """
+    if len(text) <= MAX_LINE_CHARS:
+        return
+    lines = text.count("\n") + 1
+    if lines > MAX_LINES:
+        raise ProjectError([Fault("", f"{lines:,} lines; the limit is {MAX_LINES:,}")], path)
+    headers = len(_TABLE_HEADER.findall(text))
+    if headers > MAX_TABLES:
+        raise ProjectError([Fault("", f"{headers:,} [tables]; the limit is {MAX_TABLES:,}")], path)
+    longest = max(text.splitlines() or [""], key=len)
+    if len(longest) > MAX_LINE_CHARS:
+        line = text.count("\n", 0, text.index(longest)) + 1
+        raise ProjectError(
+            [
+                Fault(
+                    "",
+                    f"the line is {len(longest):,} characters long; the limit is "
+                    f"{MAX_LINE_CHARS:,} (continue a long text on the next line with a "
+                    'backslash at the end of the line, in a """...""" string)',
+                    line,
+                )
+            ],
+            path,
+        )
 
 
 def _check_counts(data: Mapping[str, Any], path: str) -> None:
