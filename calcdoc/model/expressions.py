@@ -385,11 +385,14 @@ def _finite(x: Fraction | float) -> Fraction | float:
     return x
 
 
-def _quantity(magnitude: Fraction | float, dimension) -> Quantity:
+def _quantity(magnitude: Fraction | float, dimension, *, nonzero: bool = False) -> Quantity:
+    """A bounded result; ``nonzero`` when the operands make zero impossible (float underflow)."""
     try:
         dim = check_dimension(dimension)
     except QuantityError as exc:
         raise ExpressionError(str(exc)) from None
+    if nonzero and magnitude == 0:
+        raise ExpressionError("the result is too small to compute with")
     return Quantity(_finite(magnitude), dim)
 
 
@@ -442,11 +445,19 @@ def _evaluate(node: Node, env: Mapping[str, Quantity]) -> Quantity:
             mag = a.magnitude + b.magnitude if node.op == "+" else a.magnitude - b.magnitude
             return _quantity(mag, a.dimension)
         if node.op == "*":
-            return _quantity(a.magnitude * b.magnitude, dim_mul(a.dimension, b.dimension))
+            return _quantity(
+                a.magnitude * b.magnitude,
+                dim_mul(a.dimension, b.dimension),
+                nonzero=a.magnitude != 0 and b.magnitude != 0,
+            )
         if node.op == "/":
             if b.magnitude == 0:
                 raise ExpressionError("division by zero")
-            return _quantity(a.magnitude / b.magnitude, dim_div(a.dimension, b.dimension))
+            return _quantity(
+                a.magnitude / b.magnitude,
+                dim_div(a.dimension, b.dimension),
+                nonzero=a.magnitude != 0,
+            )
         # power
         if b.dimension != NONE:
             raise ExpressionError("an exponent must be dimensionless")
@@ -456,13 +467,13 @@ def _evaluate(node: Node, env: Mapping[str, Quantity]) -> Quantity:
                 raise ExpressionError("a quantity with units can only be raised to a whole power")
             if a.magnitude < 0:
                 raise ExpressionError("a negative number raised to a fractional power")
-            return _quantity(math.pow(float(a.magnitude), float(e)), NONE)
+            return _quantity(math.pow(float(a.magnitude), float(e)), NONE, nonzero=a.magnitude != 0)
         n = int(e)
         if abs(n) > MAX_EXPONENT:
             raise ExpressionError(f"exponents are limited to ±{MAX_EXPONENT}")
         if n < 0 and a.magnitude == 0:
             raise ExpressionError("division by zero")
-        return _quantity(a.magnitude**n, dim_pow(a.dimension, n))
+        return _quantity(a.magnitude**n, dim_pow(a.dimension, n), nonzero=a.magnitude != 0)
     if isinstance(node, Call):
         args = [_evaluate(a, env) for a in node.args]
         if node.function in ("sqrt", "abs") and len(args) != 1:

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import datetime as dt
 import difflib
+import gc
 import hashlib
 import re
 from collections.abc import Callable, Mapping
@@ -1088,6 +1089,18 @@ def parse_project(source: bytes | str, path: str = "<input>") -> Project:
     >>> [e.name for e in p.elements], p.nodes
     (['V1', 'R1', 'R2'], ('gnd', 'in', 'out'))
     """
+    # The loader makes millions of small acyclic objects on a large file; the
+    # cyclic collector would walk them all again and again for nothing.
+    collecting = gc.isenabled()
+    gc.disable()
+    try:
+        return _parse_project(source, path)
+    finally:
+        if collecting:
+            gc.enable()
+
+
+def _parse_project(source: bytes | str, path: str) -> Project:
     if len(source) > MAX_FILE_BYTES:
         raise ProjectError([Fault("", _too_big(len(source)))], path)
     try:

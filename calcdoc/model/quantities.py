@@ -114,8 +114,8 @@ class QuantityError(ValueError):
 # --------------------------------------------------------------------------
 
 #: Magnitudes a physical value may have, in SI base units (zero is allowed too).
-PHYSICAL_MIN = Fraction(1, 10**30)
-PHYSICAL_MAX = Fraction(10**30)
+PHYSICAL_MIN = 1e-30
+PHYSICAL_MAX = 1e30
 PHYSICAL_RANGE_TEXT = "magnitudes from 1e-30 to 1e30 in SI units, or zero"
 #: A written number may have at most this many digits ...
 MAX_DIGITS = 100
@@ -189,11 +189,11 @@ def outside_physical_range(magnitude: Number) -> str | None:
             return "the value is infinite"
     if magnitude == 0:
         return None
-    size = abs(magnitude)
-    if isinstance(size, Fraction):
-        small, large = size < PHYSICAL_MIN, size > PHYSICAL_MAX
-    else:
-        small, large = size < float(PHYSICAL_MIN), size > float(PHYSICAL_MAX)
+    try:
+        size = abs(float(magnitude))
+    except OverflowError:
+        size = float("inf")
+    small, large = size < PHYSICAL_MIN, size > PHYSICAL_MAX
     if small or large:
         word = "small" if small else "large"
         return f"the value is too {word} to be a physical quantity ({PHYSICAL_RANGE_TEXT})"
