@@ -293,3 +293,24 @@ def test_long_key_paths_and_many_faults_stay_readable():
     with pytest.raises(ProjectError) as info:
         calcdoc.loads(text, "p.toml")
     assert len(info.value.message) < 400 and info.value.message.endswith("...: unknown key")
+
+
+def test_case_override_at_the_end_of_a_long_parameter_chain():
+    # a case sets the last of 5,000 chained parameters; every dependant follows
+    chain = "".join(f'p{i} = "p{i + 1} + 1 ohm"\n' for i in range(4999))
+    text = (
+        "[parameters]\n"
+        + chain
+        + 'p4999 = "1 ohm"\n'
+        + V_AND_R.format(value="p0")
+        + '[[cases]]\nname = "more"\nset = { p4999 = "1001 ohm" }\n'
+    )
+    from calcdoc.model.values import element_values
+
+    p = calcdoc.loads(text)
+    assert element_values(p, p.cases[0])["R1"] == 4999 + 1001  # arithmetic series
+
+
+def test_text_that_is_not_unicode_is_an_input_error():
+    with pytest.raises(ProjectError, match="not valid Unicode"):
+        calcdoc.loads("title = '\ud800'", "p.toml")
