@@ -16,6 +16,7 @@ from collections.abc import Sequence
 from calcdoc import __version__
 
 EXIT_OK, EXIT_FAIL, EXIT_INPUT = 0, 1, 2
+EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report a command stopped by Ctrl-C
 
 
 def parser() -> argparse.ArgumentParser:
@@ -66,32 +67,44 @@ def parser() -> argparse.ArgumentParser:
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; returns the exit status."""
     args = parser().parse_args(argv)
-    from calcdoc.errors import CalcdocError, ProjectError, SingularCircuitError
     from calcdoc.output import Terminal
 
     term = Terminal()
-    module = importlib.import_module(f"calcdoc.commands.{args.command}")
     try:
+        return _run(args, term)
+    except KeyboardInterrupt:
+        term.error("interrupted")
+        return EXIT_INTERRUPTED
+
+
+def _run(args: argparse.Namespace, term) -> int:
+    """The command, with every error mapped to one message and an exit status."""
+    from calcdoc.errors import CalcdocError, ProjectError, SingularCircuitError
+
+    where = getattr(args, "file", None) or getattr(args, "package", None) or ""
+    try:
+        module = importlib.import_module(f"calcdoc.commands.{args.command}")
         return int(module.run(args, term))
     except ProjectError as exc:
-        term.error(exc.message)
+        term.error(*exc.lines)
     except SingularCircuitError as exc:
         term.error(singular_message(exc, getattr(args, "file", None) or ""))
     except CalcdocError as exc:
         term.error(str(exc))
-    except KeyboardInterrupt:
-        term.error("interrupted")
     except BrokenPipeError:  # pragma: no cover - e.g. piped into head
         return EXIT_OK
-    except Exception as exc:  # pragma: no cover - a bug: still no traceback for the user
+    except MemoryError:
+        term.error(f"{where}: out of memory while processing this input; see the limits in README")
+    except RecursionError:
+        term.error(f"{where}: the input is nested too deeply to process")
+    except Exception:  # a bug: still no traceback and no exception name for the user
         import os
 
         if os.environ.get("CALCDOC_DEBUG"):
             raise
-        where = getattr(args, "file", None) or getattr(args, "package", None) or ""
         term.error(
-            f"{where}: internal error while processing this input ({type(exc).__name__}: {exc}); "
-            "set CALCDOC_DEBUG=1 for details and please report it"
+            f"{where}: internal error while processing this input (a fault in calcdoc, not "
+            "necessarily in the input); set CALCDOC_DEBUG=1 for details and please report it"
         )
     return EXIT_INPUT
 
@@ -107,7 +120,12 @@ def singular_message(exc, file: str) -> str:
 
 
 def entry() -> None:  # pragma: no cover
-    sys.exit(main())
+    try:
+        status = main()
+    except KeyboardInterrupt:  # Ctrl-C before the command's own handling started
+        print("calcdoc: error: interrupted", file=sys.stderr)
+        status = EXIT_INTERRUPTED
+    sys.exit(status)
 
 
 if __name__ == "__main__":  # pragma: no cover

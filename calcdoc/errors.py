@@ -38,8 +38,19 @@ class Fault:
             where += f":{self.line}"
             if self.column is not None:
                 where += f":{self.column}"
-        key = f" {self.path}:" if self.path else ""
-        return f"{where}:{key} {self.message}"
+        key = f" {_clip(self.path, MAX_PATH_CHARS)}:" if self.path else ""
+        return f"{where}:{key} {_clip(self.message, MAX_MESSAGE_CHARS)}"
+
+
+#: A key path or message quoting hostile input is shortened to this many characters.
+MAX_PATH_CHARS = 200
+MAX_MESSAGE_CHARS = 1000
+#: At most this many faults are listed; the rest are counted.
+MAX_FAULTS_SHOWN = 50
+
+
+def _clip(text: str, limit: int) -> str:
+    return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
 class CalcdocError(Exception):
@@ -59,11 +70,18 @@ class ProjectError(CalcdocError):
 
     @property
     def message(self) -> str:
-        lines = [f.describe(self.file) for f in self.faults]
-        if len(lines) > 1:
-            head = f"{self.file or '<input>'}: {len(lines)} problems in the input"
-            return "\n".join([head, *("  " + ln for ln in lines)])
-        return lines[0] if lines else f"{self.file or '<input>'}: invalid input"
+        return "\n".join(self.lines)
+
+    @property
+    def lines(self) -> tuple[str, ...]:
+        """The message as lines: one per fault (at most ``MAX_FAULTS_SHOWN``) under a head."""
+        lines = [f.describe(self.file) for f in self.faults[:MAX_FAULTS_SHOWN]]
+        if len(self.faults) > 1:
+            head = f"{self.file or '<input>'}: {len(self.faults)} problems in the input"
+            more = len(self.faults) - len(lines)
+            tail = [f"  ... and {more} more"] if more else []
+            return (head, *("  " + ln for ln in lines), *tail)
+        return (lines[0],) if lines else (f"{self.file or '<input>'}: invalid input",)
 
     def with_file(self, file: str) -> ProjectError:
         """Return the same faults attributed to ``file``."""

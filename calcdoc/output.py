@@ -1,14 +1,76 @@
-"""Everything calcdoc prints on the terminal goes through this module."""
+"""Everything calcdoc prints on the terminal goes through this module.
+
+Text from a project file or a received package (titles, case names,
+descriptions, certificate names, messages quoting them) could carry
+terminal control sequences that move the cursor or recolour the screen,
+so every line is passed through :func:`terminal_safe` on its way out.
+"""
 
 from __future__ import annotations
 
 import json
+import re
 import sys
 from collections.abc import Sequence
 from typing import IO, Any
 
 from calcdoc.format import eng, percent, value_text
 from calcdoc.model.elements import KINDS
+
+# Characters a terminal may act on instead of showing: C0 and C1 controls
+# (ESC, CR, backspace, the single-byte CSI), bidirectional embeddings,
+# overrides and isolates and the other invisible format characters
+# (Unicode category Cf), line and paragraph separators (Zl, Zp) and
+# surrogates (Cs).  Generated from unicodedata 14.0; the test suite checks
+# it against the running Python's own Unicode tables.
+_BEYOND_C0 = (
+    "\\x7f-\\x9f\\xad\\u0600-\\u0605\\u061c\\u06dd\\u070f\\u0890-\\u0891\\u08e2"
+    "\\u180e\\u200b-\\u200f\\u2028-\\u202e\\u2060-\\u2064\\u2066-\\u206f\\ud800-\\udfff\\ufeff"
+    "\\ufff9-\\ufffb\\U000110bd\\U000110cd\\U00013430-\\U0001343f\\U0001bca0-\\U0001bca3"
+    "\\U0001d173-\\U0001d17a\\U000e0001\\U000e0020-\\U000e007f"
+)
+UNSAFE = re.compile(f"[\\x00-\\x1f{_BEYOND_C0}]")
+# json.dumps already escapes C0 inside strings; outside them its newlines are layout.
+_JSON_UNSAFE = re.compile(f"[{_BEYOND_C0}]")
+
+
+_SHORT = {"\n": "\\n", "\r": "\\r", "\t": "\\t"}
+
+
+def _escape(match: re.Match[str]) -> str:
+    char = match.group()
+    if char in _SHORT:
+        return _SHORT[char]
+    code = ord(char)
+    if code <= 0xFF:
+        return f"\\x{code:02x}"
+    return f"\\u{code:04x}" if code <= 0xFFFF else f"\\U{code:08x}"
+
+
+def _json_escape(match: re.Match[str]) -> str:
+    code = ord(match.group())
+    if code <= 0xFFFF:
+        return f"\\u{code:04x}"
+    code -= 0x10000  # JSON writes other planes as a surrogate pair
+    return f"\\u{0xD800 + (code >> 10):04x}\\u{0xDC00 + (code & 0x3FF):04x}"
+
+
+def terminal_safe(text: str) -> str:
+    r"""``text`` with every control or invisible format character shown as an escape.
+
+    >>> terminal_safe("R1\x1b[2J\rRESULT: PASS\u202e")
+    'R1\\x1b[2J\\rRESULT: PASS\\u202e'
+    """
+    return UNSAFE.sub(_escape, text)
+
+
+def json_safe(text: str) -> str:
+    r"""JSON text with the characters of :data:`UNSAFE` written as ``\uXXXX`` escapes.
+
+    The JSON value is unchanged (the escapes mean the same characters);
+    only the terminal no longer sees them raw.
+    """
+    return _JSON_UNSAFE.sub(_json_escape, text)
 
 
 class Terminal:
@@ -22,20 +84,37 @@ class Terminal:
 
     # ------------------------------------------------------------ basics
     def line(self, text: str = "") -> None:
+        """One line on standard output; a newline inside ``text`` is shown as ``\\n``."""
+        text = terminal_safe(text)
         if self.ascii_only:
             text = text.encode("ascii", "replace").decode("ascii")
         print(text, file=self.out)
 
-    def error(self, message: str) -> None:
-        print(f"calcdoc: error: {message}", file=self.err)
+    def _err_line(self, text: str) -> None:
+        text = terminal_safe(text)
+        enc = (getattr(self.err, "encoding", None) or "utf-8").lower()
+        if not enc.startswith("utf"):
+            text = text.encode("ascii", "replace").decode("ascii")
+        print(text, file=self.err)
+
+    def error(self, message: str, *more: str) -> None:
+        """``calcdoc: error: MESSAGE``, then each of ``more`` on its own line."""
+        self._err_line(f"calcdoc: error: {message}")
+        for text in more:
+            self._err_line(text)
 
     def warning(self, message: str) -> None:
-        print(f"calcdoc: warning: {message}", file=self.err)
+        self._err_line(f"calcdoc: warning: {message}")
+
+    def project_warnings(self, project) -> None:
+        """The loader's warnings about a project (names differing only in case)."""
+        for text in getattr(project, "warnings", ()):
+            self.warning(f"{project.path}: {text}")
 
     def progress(self, message: str) -> None:
         """A progress line on stderr (only when it is a terminal)."""
         if getattr(self.err, "isatty", lambda: False)():
-            print(f"\r\033[K{message}", end="", file=self.err, flush=True)
+            print(f"\r\033[K{terminal_safe(message)}", end="", file=self.err, flush=True)
 
     def progress_done(self) -> None:
         if getattr(self.err, "isatty", lambda: False)():
@@ -46,12 +125,14 @@ class Terminal:
         text = json.dumps(obj, ensure_ascii=False, allow_nan=False)
         if not compact and (compact is not None or len(text) < 200_000):
             text = json.dumps(obj, indent=1, ensure_ascii=False, allow_nan=False)
-        self.out.write(text + "\n")
+        self.out.write(json_safe(text) + "\n")
 
     def eng(self, value: float, unit: str, sig: int = 4) -> str:
         return eng(value, unit, sig, ascii_only=self.ascii_only)
 
     def table(self, headers: Sequence[str], rows: Sequence[Sequence[str]], align: str = "") -> None:
+        headers = [terminal_safe(h) for h in headers]
+        rows = [[terminal_safe(c) for c in row] for row in rows]
         widths = [len(h) for h in headers]
         for row in rows:
             widths = [max(w, len(c)) for w, c in zip(widths, row, strict=True)]

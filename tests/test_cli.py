@@ -80,7 +80,7 @@ BAD = {
     "too large": (
         '[elements.V1]\ntype = "voltage_source"\nnodes = ["a", "gnd"]\nvalue = "1e400 V"\n'
         '[elements.R1]\ntype = "resistor"\nnodes = ["a", "gnd"]\nvalue = "5 ohm"\n',
-        "elements.V1.value: the value is too large",
+        "elements.V1.value: the number 1e400 is far outside the range of physical values",
     ),
     "case divides by zero": (
         '[parameters]\nx = "1 ohm"\n[elements.V1]\ntype = "voltage_source"\nnodes = ["a", "gnd"]\n'

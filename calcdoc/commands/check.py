@@ -8,7 +8,9 @@ import calcdoc
 def run(args, term) -> int:
     from calcdoc.checkset import check_summary
 
-    results = calcdoc.solve(calcdoc.load(args.file))
+    project = calcdoc.load(args.file)
+    term.project_warnings(project)
+    results = calcdoc.solve(project)
     summary = check_summary(results)
     term.check_summary(results, summary)
     return 0 if summary.passed else 1

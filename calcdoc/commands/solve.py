@@ -6,7 +6,9 @@ import calcdoc
 
 
 def run(args, term) -> int:
-    results = calcdoc.solve(calcdoc.load(args.file))
+    project = calcdoc.load(args.file)
+    term.project_warnings(project)
+    results = calcdoc.solve(project)
     if args.json:
         term.json(calcdoc.to_json(results))
     else:

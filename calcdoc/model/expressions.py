@@ -31,14 +31,17 @@ from fractions import Fraction
 from functools import lru_cache
 
 from calcdoc.model.quantities import (
+    MAX_UNIT_POWER,
     NONE,
     Quantity,
     QuantityError,
+    check_dimension,
     dim_div,
     dim_mul,
     dim_pow,
     dimension_name,
     is_unit,
+    parse_number,
     parse_quantity,
     parse_rkm,
     unit_factor,
@@ -48,6 +51,12 @@ MAX_LENGTH = 500
 MAX_DEPTH = 40
 MAX_EXPONENT = 12
 FUNCTIONS = ("sqrt", "abs", "min", "max")
+#: Names that look like numbers but are none: refused with their meaning.
+NOT_NUMBERS = {"inf": "infinity", "infinity": "infinity", "nan": "not a number"}
+#: Exact fractions whose numerator or denominator exceeds this are carried as floats.
+EXACT_LIMIT = 10**60
+#: Any intermediate result beyond this (either way, in powers of two) is refused.
+_BINARY_RANGE = 1000
 
 
 class ExpressionError(ValueError):
@@ -139,6 +148,8 @@ class _Parser:
         """A whole-number power written on a unit (``ohm^2``) belongs to the unit."""
         op, num = self.peek(), self.peek(1)
         if op and op[1] in ("^", "**") and num and num[0] == "number" and num[1].isdigit():
+            if len(num[1].lstrip("0")) > 2 or int(num[1]) > MAX_UNIT_POWER:
+                raise ExpressionError(f"powers on a unit are limited to ±{MAX_UNIT_POWER}")
             self.take()
             self.take()
             return "^" + num[1]
@@ -207,6 +218,11 @@ class _Parser:
         if kind == "number":
             return self.number(text)
         if kind == "name":
+            if text.lower() in NOT_NUMBERS:
+                raise ExpressionError(
+                    f"{text!r} ({NOT_NUMBERS[text.lower()]}) is not a value a physical "
+                    "quantity can have"
+                )
             nxt = self.peek()
             if nxt and nxt[1] == "(":
                 if text not in FUNCTIONS:
@@ -237,12 +253,19 @@ class _Parser:
             rkm = parse_rkm(text + nxt[1])
             if rkm is not None:
                 self.take()
-                return Literal(parse_quantity(text + nxt[1]), text + nxt[1])
+                return Literal(
+                    Quantity(_finite(rkm), parse_quantity(text + nxt[1]).dimension), text + nxt[1]
+                )
         unit_parts: list[str] = []
         if nxt and nxt[1] == "%":
             self.take()
             unit_parts.append("%")
         elif nxt and nxt[0] == "name":
+            if nxt[1].lower() in NOT_NUMBERS:
+                raise ExpressionError(
+                    f"{nxt[1]!r} ({NOT_NUMBERS[nxt[1].lower()]}) is not a value a physical "
+                    "quantity can have"
+                )
             if not is_unit(nxt[1]):
                 raise ExpressionError(f"{nxt[1]!r} after {text} is not a unit")
             self.take()
@@ -262,9 +285,10 @@ class _Parser:
         unit = "".join(unit_parts)
         try:
             factor, dim = unit_factor(unit)
+            number = parse_number(text)
         except QuantityError as exc:
             raise ExpressionError(str(exc)) from exc
-        value = Quantity(Fraction(text) * factor, dim)
+        value = Quantity(_finite(number * factor), dim)
         return Literal(value, f"{text} {unit}".strip())
 
 
@@ -296,9 +320,11 @@ def parse_expression(text: str) -> Node:
     # a whole RKM code or a plain "number unit" needs no tree
     if _PLAIN.fullmatch(text):
         try:
-            return Literal(parse_quantity(text), text.strip())
+            q = parse_quantity(text)
         except QuantityError:
             pass
+        else:
+            return Literal(Quantity(_finite(q.magnitude), q.dimension), text.strip())
     return _Parser(text).parse()
 
 
@@ -331,11 +357,43 @@ def _same_dim(a: Quantity, b: Quantity, what: str) -> None:
 
 
 def _finite(x: Fraction | float) -> Fraction | float:
-    if isinstance(x, float) and not math.isfinite(x):
-        raise ExpressionError("the result is not a finite number")
-    if isinstance(x, Fraction) and (abs(x.numerator) > 10**60 or x.denominator > 10**60):
-        return float(x)
+    """Keep every intermediate result small: a bounded fraction or a finite float.
+
+    Every operand of every operation passes through here, so no arithmetic
+    in :func:`evaluate` works on numbers of more than a few thousand bits.
+    """
+    if isinstance(x, int):
+        x = Fraction(x)
+    elif not isinstance(x, (Fraction, float)):
+        x = float(x)  # a numpy scalar from an analysis override
+    if isinstance(x, float):
+        if not math.isfinite(x):
+            raise ExpressionError("the result is too large to compute with")
+        if x != 0 and abs(x) < 1e-300:
+            raise ExpressionError("the result is too small to compute with")
+        return x
+    if abs(x.numerator) > EXACT_LIMIT or x.denominator > EXACT_LIMIT:
+        if x.numerator == 0:
+            return x
+        # decide the size from the bit lengths before dividing (no overflow, no underflow)
+        bits = abs(x.numerator).bit_length() - x.denominator.bit_length()
+        if bits > _BINARY_RANGE:
+            raise ExpressionError("the result is too large to compute with")
+        if bits < -_BINARY_RANGE:
+            raise ExpressionError("the result is too small to compute with")
+        return _finite(float(x))
     return x
+
+
+def _quantity(magnitude: Fraction | float, dimension, *, nonzero: bool = False) -> Quantity:
+    """A bounded result; ``nonzero`` when the operands make zero impossible (float underflow)."""
+    try:
+        dim = check_dimension(dimension)
+    except QuantityError as exc:
+        raise ExpressionError(str(exc)) from None
+    if nonzero and magnitude == 0:
+        raise ExpressionError("the result is too small to compute with")
+    return Quantity(_finite(magnitude), dim)
 
 
 def evaluate(node: Node, env: Mapping[str, Quantity]) -> Quantity:
@@ -359,6 +417,17 @@ def evaluate(node: Node, env: Mapping[str, Quantity]) -> Quantity:
     ExpressionError
         Unknown name, division by zero, mismatched dimensions.
     """
+    try:
+        return _evaluate(node, env)
+    except OverflowError:
+        raise ExpressionError("the result is too large to compute with") from None
+    except ZeroDivisionError:
+        raise ExpressionError("division by zero") from None
+    except RecursionError:
+        raise ExpressionError("the expression is nested too deeply") from None
+
+
+def _evaluate(node: Node, env: Mapping[str, Quantity]) -> Quantity:
     if isinstance(node, Literal):
         return node.value
     if isinstance(node, Name):
@@ -366,21 +435,29 @@ def evaluate(node: Node, env: Mapping[str, Quantity]) -> Quantity:
             raise ExpressionError(f"unknown parameter {node.name!r}")
         return env[node.name]
     if isinstance(node, Unary):
-        v = evaluate(node.operand, env)
+        v = _evaluate(node.operand, env)
         return Quantity(-v.magnitude if node.op == "-" else v.magnitude, v.dimension)
     if isinstance(node, Binary):
-        a = evaluate(node.left, env)
-        b = evaluate(node.right, env)
+        a = _evaluate(node.left, env)
+        b = _evaluate(node.right, env)
         if node.op in "+-":
             _same_dim(a, b, "add" if node.op == "+" else "subtract")
             mag = a.magnitude + b.magnitude if node.op == "+" else a.magnitude - b.magnitude
-            return Quantity(_finite(mag), a.dimension)
+            return _quantity(mag, a.dimension)
         if node.op == "*":
-            return Quantity(_finite(a.magnitude * b.magnitude), dim_mul(a.dimension, b.dimension))
+            return _quantity(
+                a.magnitude * b.magnitude,
+                dim_mul(a.dimension, b.dimension),
+                nonzero=a.magnitude != 0 and b.magnitude != 0,
+            )
         if node.op == "/":
             if b.magnitude == 0:
                 raise ExpressionError("division by zero")
-            return Quantity(_finite(a.magnitude / b.magnitude), dim_div(a.dimension, b.dimension))
+            return _quantity(
+                a.magnitude / b.magnitude,
+                dim_div(a.dimension, b.dimension),
+                nonzero=a.magnitude != 0,
+            )
         # power
         if b.dimension != NONE:
             raise ExpressionError("an exponent must be dimensionless")
@@ -390,15 +467,15 @@ def evaluate(node: Node, env: Mapping[str, Quantity]) -> Quantity:
                 raise ExpressionError("a quantity with units can only be raised to a whole power")
             if a.magnitude < 0:
                 raise ExpressionError("a negative number raised to a fractional power")
-            return Quantity(_finite(float(a.magnitude) ** float(e)), NONE)
+            return _quantity(math.pow(float(a.magnitude), float(e)), NONE, nonzero=a.magnitude != 0)
         n = int(e)
         if abs(n) > MAX_EXPONENT:
             raise ExpressionError(f"exponents are limited to ±{MAX_EXPONENT}")
         if n < 0 and a.magnitude == 0:
             raise ExpressionError("division by zero")
-        return Quantity(_finite(a.magnitude**n), dim_pow(a.dimension, n))
+        return _quantity(a.magnitude**n, dim_pow(a.dimension, n), nonzero=a.magnitude != 0)
     if isinstance(node, Call):
-        args = [evaluate(a, env) for a in node.args]
+        args = [_evaluate(a, env) for a in node.args]
         if node.function in ("sqrt", "abs") and len(args) != 1:
             raise ExpressionError(f"{node.function}() takes one argument")
         if node.function == "abs":

@@ -9,9 +9,11 @@ from __future__ import annotations
 
 import datetime as dt
 import difflib
+import gc
 import hashlib
 import re
 from collections.abc import Callable, Mapping
+from dataclasses import replace
 from fractions import Fraction
 from pathlib import Path
 from typing import Any
@@ -50,6 +52,7 @@ from calcdoc.model.quantities import (
     AMPERE,
     KELVIN,
     NONE,
+    PHYSICAL_MAX,
     VOLT,
     WATT,
     Dimension,
@@ -57,6 +60,7 @@ from calcdoc.model.quantities import (
     QuantityError,
     dim_div,
     dimension_name,
+    outside_physical_range,
     parse_temperature,
 )
 
@@ -80,10 +84,44 @@ DOCUMENT_KEYS = (
     "scope", "assumptions", "references", "history", "conclusion",
 )  # fmt: skip
 
+# ---------------------------------------------------------------- limits
+# Resource caps, stated in the README ("Security and limits") and checked
+# before the work they bound.
+MAX_FILE_BYTES = 20_000_000
+MAX_ELEMENTS = 200_000
+MAX_NODES = 200_000
+MAX_PARAMETERS = 10_000
+MAX_CASES = 200
+MAX_SWEEPS = 50
+MAX_OUTPUTS = 100  # outputs named in one sensitivity or sweep list
+MAX_LINE_CHARS = 12_000  # the package prints the input file verbatim, line by line
+MAX_LINES = 1_000_000
+MAX_TABLES = 250_000  # [table] and [[array]] headers
+_TABLE_HEADER = re.compile(r"^[ \t]*\[", re.MULTILINE)
+MAX_LIST_ITEMS = 100  # assumptions, references, history entries
+MAX_NAME_CHARS = 100  # element, node and parameter names
+#: Monte Carlo: samples x (nodes + elements), the size of the sampled results.
+MAX_SAMPLE_VALUES = 10_000_000
+#: Characters per text field, by key (``MAX_TEXT_CHARS`` for any other).
+MAX_TEXT_CHARS = 200
+TEXT_LIMITS = {
+    "number": 40, "revision": 20, "name": 100,
+    "description": 500, "source": 500, "basis": 500, "seal": 1_000, "template": 1_000,
+    "assumptions": 1_000, "references": 1_000,
+    "purpose": 10_000, "scope": 10_000, "conclusion": 10_000,
+}  # fmt: skip
+
 
 class _Faults:
     def __init__(self) -> None:
         self.items: list[Fault] = []
+        self.hints_left = 100  # "did you mean" is worth a search for the first faults only
+
+    def hint(self, word: str, choices: Any) -> str:
+        if self.hints_left <= 0:
+            return ""
+        self.hints_left -= 1
+        return _hint(word, choices)
 
     def add(
         self, path: str, message: str, line: int | None = None, column: int | None = None
@@ -92,15 +130,21 @@ class _Faults:
 
 
 def _hint(word: str, choices: Any) -> str:
+    if len(word) > MAX_NAME_CHARS or len(choices) > 5_000:
+        return ""  # a hint is not worth a quadratic search
     cutoff = 0.5 if len(word) <= 3 else 0.6
     close = difflib.get_close_matches(word, list(choices), n=1, cutoff=cutoff)
     return f" (did you mean {close[0]!r}?)" if close else ""
 
 
 def _keys(table: Mapping[str, Any], allowed: Any, path: str, faults: _Faults) -> None:
-    for key in table:
-        if key not in allowed:
-            faults.add(f"{path}.{key}" if path else key, f"unknown key{_hint(key, allowed)}")
+    unknown = [key for key in table if key not in allowed]
+    if len(unknown) > 10:  # one fault for a flood of keys
+        shown = ", ".join(repr(k[:40]) for k in unknown[:5])
+        faults.add(path or "(top level)", f"{len(unknown):,} unknown keys: {shown}, ...")
+        return
+    for key in unknown:
+        faults.add(f"{path}.{key}" if path else key, f"unknown key{faults.hint(key, allowed)}")
 
 
 def _join(path: str, key: str) -> str:
@@ -117,6 +161,10 @@ def _table(value: Any, path: str, faults: _Faults) -> dict[str, Any]:
 
 
 def _kind(value: Any) -> str:
+    if isinstance(value, float) and value != value:
+        return "not a number (nan)"
+    if isinstance(value, float) and value in (float("inf"), float("-inf")):
+        return "infinity (inf)"
     return {
         str: "a string", bool: "true/false", int: "an integer", float: "a number",
         list: "an array", dict: "a table", dt.date: "a date", dt.datetime: "a date-time",
@@ -128,17 +176,29 @@ def _text(table: Mapping[str, Any], key: str, path: str, faults: _Faults, defaul
     if not isinstance(value, str):
         faults.add(_join(path, key), f"expected a string, found {_kind(value)}")
         return default
-    return value
+    return value if _short_enough(value, key, _join(path, key), faults) else default
+
+
+def _short_enough(value: str, key: str, path: str, faults: _Faults) -> bool:
+    limit = TEXT_LIMITS.get(key, MAX_TEXT_CHARS)
+    if len(value) > limit:
+        faults.add(path, f"the text is {len(value):,} characters long; the limit is {limit:,}")
+        return False
+    return True
 
 
 def _texts(table: Mapping[str, Any], key: str, path: str, faults: _Faults) -> tuple[str, ...]:
     value = table.get(key, [])
     if isinstance(value, str):
-        return (value,)
+        value = [value]
     if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
         faults.add(_join(path, key), "expected an array of strings")
         return ()
-    return tuple(value)
+    if len(value) > MAX_LIST_ITEMS:
+        faults.add(_join(path, key), f"{len(value):,} entries; the limit is {MAX_LIST_ITEMS}")
+        return ()
+    ok = [_short_enough(v, key, f"{_join(path, key)}[{i}]", faults) for i, v in enumerate(value)]
+    return tuple(value) if all(ok) else ()
 
 
 def _date(table: Mapping[str, Any], key: str, path: str, faults: _Faults) -> dt.date | None:
@@ -168,6 +228,15 @@ def _number(value: Any) -> Fraction | None:
             return None
         return Fraction(repr(value))
     return None
+
+
+def _representable(q: Quantity, path: str, faults: _Faults) -> bool:
+    """The value must be one a physical quantity can have (1e-30 to 1e30 in SI, or zero)."""
+    why = outside_physical_range(q.magnitude)
+    if why:
+        faults.add(path, why)
+        return False
+    return True
 
 
 def _quantity(value: Any, dim: Dimension, path: str, faults: _Faults) -> Quantity | None:
@@ -228,6 +297,9 @@ def _temperature(value: Any, path: str, faults: _Faults) -> Fraction | None:
     if t < Fraction("-273.15"):
         faults.add(path, "below absolute zero")
         return None
+    if t > PHYSICAL_MAX:
+        faults.add(path, "the temperature is too high to be a physical value")
+        return None
     return t
 
 
@@ -277,6 +349,9 @@ def _derating(value: Any, path: str, faults: _Faults) -> Derating | None:
 
 
 def _name_ok(name: str, path: str, faults: _Faults, what: str) -> bool:
+    if isinstance(name, str) and len(name) > MAX_NAME_CHARS:
+        faults.add(path[:60] + "...", f"a {what} name is at most {MAX_NAME_CHARS} characters long")
+        return False
     if not isinstance(name, str) or not NAME_RE.fullmatch(name):
         faults.add(path, f"{what} name {name!r} may hold only letters, digits, '_', '-' and '.'")
         return False
@@ -293,6 +368,9 @@ def _document(raw: Any, faults: _Faults) -> Document:
     hist = t.get("history", [])
     if not isinstance(hist, list):
         faults.add("document.history", "expected an array of tables ([[document.history]])")
+        hist = []
+    elif len(hist) > MAX_LIST_ITEMS:
+        faults.add("document.history", f"{len(hist):,} entries; the limit is {MAX_LIST_ITEMS}")
         hist = []
     for i, h in enumerate(hist):
         path = f"document.history[{i}]"
@@ -358,6 +436,9 @@ def _parameters(raw: Any, faults: _Faults) -> tuple[dict[str, Quantity], list[Pa
                 faults.add(path, "missing key 'value'")
                 continue
             spec, path = spec["value"], f"{path}.value"
+        if isinstance(spec, float) and _number(spec) is None:
+            faults.add(path, f"{_kind(spec)} is not a value a physical quantity can have")
+            continue
         if isinstance(spec, (int, float)) and not isinstance(spec, bool):
             spec = repr(spec)
         if not isinstance(spec, str):
@@ -370,41 +451,7 @@ def _parameters(raw: Any, faults: _Faults) -> tuple[dict[str, Quantity], list[Pa
             continue
         entries[name] = (spec, expr, tol_raw, desc)
 
-    values: dict[str, Quantity] = {}
-    state: dict[str, int] = {}  # 1 visiting, 2 done
-    failed: set[str] = set()
-
-    def visit(name: str, chain: list[str]) -> None:
-        if state.get(name) == 2:
-            return
-        if state.get(name) == 1:
-            cycle = chain[chain.index(name) :] + [name]
-            faults.add(
-                f"parameters.{name}",
-                "parameters refer to each other in a cycle: " + " → ".join(cycle),
-            )
-            failed.update(cycle)
-            return
-        state[name] = 1
-        text, expr, _, _ = entries[name]
-        for dep in sorted(names_in(expr)):
-            if dep not in entries:
-                faults.add(f"parameters.{name}", f"unknown parameter {dep!r}{_hint(dep, entries)}")
-                failed.add(name)
-            else:
-                visit(dep, [*chain, name])
-                if dep in failed:
-                    failed.add(name)
-        state[name] = 2
-        if name not in failed:
-            try:
-                values[name] = evaluate(expr, values)
-            except ExpressionError as exc:
-                faults.add(f"parameters.{name}", str(exc))
-                failed.add(name)
-
-    for name in entries:
-        visit(name, [])
+    values = _resolve_parameters(entries, faults)
     params = []
     for name, (text, expr, tol_raw, desc) in entries.items():
         if name in values:
@@ -413,7 +460,76 @@ def _parameters(raw: Any, faults: _Faults) -> tuple[dict[str, Quantity], list[Pa
     return values, params
 
 
+def _resolve_parameters(entries: Mapping[str, tuple[str, Node, Any, str]], faults: _Faults):
+    """Evaluate parameters in dependency order: an iterative depth-first walk.
+
+    No recursion per parameter, so thousands of parameters defined in any
+    order resolve without exhausting the interpreter's stack.
+    """
+    values: dict[str, Quantity] = {}
+    state: dict[str, int] = {}  # 1 on the current chain, 2 done
+    failed: set[str] = set()
+
+    def deps(name: str):
+        return iter(sorted(names_in(entries[name][1])))
+
+    for root in entries:
+        if state.get(root):
+            continue
+        state[root] = 1
+        chain, pending = [root], [deps(root)]
+        while chain:
+            name = chain[-1]
+            dep = next(pending[-1], None)
+            if dep is None:  # every dependency seen: evaluate this one
+                chain.pop()
+                pending.pop()
+                state[name] = 2
+                if name not in failed:
+                    _evaluate_parameter(name, entries[name][1], values, faults, failed)
+                if chain and name in failed:
+                    failed.add(chain[-1])
+            elif dep not in entries:
+                faults.add(
+                    f"parameters.{name}", f"unknown parameter {dep!r}{faults.hint(dep, entries)}"
+                )
+                failed.add(name)
+            elif state.get(dep) == 2:
+                if dep in failed:
+                    failed.add(name)
+            elif state.get(dep) == 1:
+                cycle = [*chain[chain.index(dep) :], dep]
+                faults.add(
+                    f"parameters.{dep}",
+                    "parameters refer to each other in a cycle: " + " → ".join(cycle),
+                )
+                failed.update(cycle)
+            else:
+                state[dep] = 1
+                chain.append(dep)
+                pending.append(deps(dep))
+    return values
+
+
+def _evaluate_parameter(
+    name: str, expr: Node, values: dict[str, Quantity], faults: _Faults, failed: set[str]
+) -> None:
+    try:
+        q = evaluate(expr, values)
+    except ExpressionError as exc:
+        faults.add(f"parameters.{name}", str(exc))
+        failed.add(name)
+        return
+    if _representable(q, f"parameters.{name}", faults):
+        values[name] = q
+    else:
+        failed.add(name)
+
+
 def _value_expr(value: Any, path: str, faults: _Faults, dim: Dimension) -> tuple[str, Node] | None:
+    if isinstance(value, float) and _number(value) is None:
+        faults.add(path, f"{_kind(value)} is not a value a physical quantity can have")
+        return None
     if isinstance(value, (int, float)) and not isinstance(value, bool):
         if dim != NONE:
             faults.add(path, f"write the value with its unit, such as {_example(dim)}")
@@ -427,21 +543,6 @@ def _value_expr(value: Any, path: str, faults: _Faults, dim: Dimension) -> tuple
     except (ExpressionError, QuantityError) as exc:
         faults.add(path, str(exc))
         return None
-
-
-def _representable(q: Quantity, path: str, faults: _Faults) -> bool:
-    """The value must fit a float64 (solving and reporting use floats)."""
-    try:
-        f = abs(float(q.magnitude))
-    except OverflowError:
-        f = float("inf")
-    if f > 1e200:
-        faults.add(path, "the value is too large to compute with (above 1e200 in SI units)")
-        return False
-    if q.magnitude != 0 and f < 1e-200:
-        faults.add(path, "the value is too small to compute with (below 1e-200 in SI units)")
-        return False
-    return True
 
 
 def _resolved(
@@ -466,7 +567,7 @@ def _resolved(
         if dep not in params:
             if dep in known_params:
                 return None  # the parameter's own fault is already reported
-            faults.add(path, f"unknown parameter {dep!r}{_hint(dep, known_params)}")
+            faults.add(path, f"unknown parameter {dep!r}{faults.hint(dep, known_params)}")
             return None
     try:
         q = evaluate(expr, params)
@@ -508,11 +609,11 @@ def _elements(
         for t, k in KINDS.items()
         if len(k.keys) == 1 and not k.control and not k.states
     }
-    literal: dict[tuple[str, str], tuple[Quantity, Node]] = {}
+    literal: dict[tuple[str, Dimension], tuple[Quantity, Node]] = {}
     good_nodes: set[str] = set()
     name_ok = NAME_RE.fullmatch
     for name, spec in raw.items():
-        if isinstance(spec, dict) and name_ok(name):
+        if isinstance(spec, dict) and len(name) <= MAX_NAME_CHARS and name_ok(name):
             etype = spec.get("type")
             plain = plain_keys.get(etype) if isinstance(etype, str) else None
             if plain is not None and spec.keys() == plain:
@@ -562,7 +663,7 @@ def _plain_element(name: str, spec: dict, etype: str, literal: dict, good_nodes:
     text = spec[key.name]
     if not isinstance(text, str):
         return None
-    q = literal.get((text, key.name))
+    q = literal.get((text, key.dimension))
     if q is None:
         scratch = _Faults()
         vexpr = _value_expr(text, "", scratch, key.dimension)
@@ -571,7 +672,7 @@ def _plain_element(name: str, spec: dict, etype: str, literal: dict, good_nodes:
         q = _resolved(vexpr, "", scratch, key.dimension, {}, ())
         if q is None or scratch.items:
             return None
-        literal[(text, key.name)] = q = (q, vexpr[1])
+        literal[(text, key.dimension)] = q = (q, vexpr[1])
     quantity, expr = q
     return Element(name, etype, (a, b), quantity.magnitude, text, expr)
 
@@ -726,7 +827,7 @@ def _limits(raw: Any, faults: _Faults, nodes: set[str], declared_nodes: Any = ()
         path = f"limits.nodes.{node}"
         if node not in nodes:
             if node not in declared_nodes:
-                faults.add(path, f"no such node{_hint(node, nodes)}")
+                faults.add(path, f"no such node{faults.hint(node, nodes)}")
             continue
         spec = _table(spec, path, faults)
         _keys(spec, ("min", "max"), path, faults)
@@ -781,7 +882,7 @@ def _cases(
             else:
                 if target not in declared:
                     faults.add(
-                        spath, f"no element or parameter of that name{_hint(target, targets)}"
+                        spath, f"no element or parameter of that name{faults.hint(target, targets)}"
                     )
                 continue
             ve = _value_expr(value, spath, faults, dim)
@@ -814,16 +915,20 @@ def _outputs(
     if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
         faults.add(path, 'expected an array of output names, such as ["field", "Rs.power"]')
         return ()
+    if len(value) > MAX_OUTPUTS:
+        faults.add(path, f"{len(value):,} outputs; the limit is {MAX_OUTPUTS}")
+        return ()
     good = []
     for i, v in enumerate(value):
         subject, q = parse_output(v)
         if (q == "node" and subject in nodes) or (q != "node" and subject in elements):
             good.append(v)
         else:
-            choices = [*nodes, *(f"{e}.power" for e in elements)]
+            hint = ""
+            if faults.hints_left > 0:
+                hint = faults.hint(v, [*nodes, *(f"{e}.power" for e in elements)])
             faults.add(
-                f"{path}[{i}]",
-                f"{v!r} is neither a node nor ELEMENT.voltage/current/power{_hint(v, choices)}",
+                f"{path}[{i}]", f"{v!r} is neither a node nor ELEMENT.voltage/current/power{hint}"
             )
     return tuple(good)
 
@@ -847,7 +952,7 @@ def _analysis(
     if method not in TOLERANCE_METHODS:
         faults.add(
             "analysis.tolerance",
-            f"expected one of {', '.join(TOLERANCE_METHODS)}{_hint(str(method), TOLERANCE_METHODS)}",
+            f"expected one of {', '.join(TOLERANCE_METHODS)}{faults.hint(str(method), TOLERANCE_METHODS)}",
         )
     else:
         kw["tolerance"] = method
@@ -900,7 +1005,7 @@ def _sweeps(
         else:
             faults.add(
                 f"{path}.target",
-                f"no element or parameter of that name{_hint(str(target), [*elements, *params])}",
+                f"no element or parameter of that name{faults.hint(str(target), [*elements, *params])}",
             )
             continue
         missing = [k for k in ("from", "to", "outputs") if k not in spec]
@@ -942,7 +1047,9 @@ def _report(raw: Any, faults: _Faults) -> ReportSettings:
         kw["template"] = _text(t, "template", "report", faults, "standard")
     if "paper" in t:
         if t["paper"] not in PAPERS:
-            faults.add("report.paper", f'expected "A4" or "Letter"{_hint(str(t["paper"]), PAPERS)}')
+            faults.add(
+                "report.paper", f'expected "A4" or "Letter"{faults.hint(str(t["paper"]), PAPERS)}'
+            )
         else:
             kw["paper"] = t["paper"]
     if "significant_figures" in t:
@@ -961,17 +1068,19 @@ def _check_references(elements: list[Element], reference: str, faults: _Faults) 
     if elements and reference not in nodes:
         faults.add(
             "circuit.reference",
-            f"reference node {reference!r} is not a terminal of any element{_hint(reference, nodes)}",
+            f"reference node {reference!r} is not a terminal of any element{faults.hint(reference, nodes)}",
         )
     for e in elements:
         if e.control_nodes:
             for n in e.control_nodes:
                 if n not in nodes:
-                    faults.add(f"elements.{e.name}.control", f"no such node {n!r}{_hint(n, nodes)}")
+                    faults.add(
+                        f"elements.{e.name}.control", f"no such node {n!r}{faults.hint(n, nodes)}"
+                    )
         if e.control_element and e.control_element not in names:
             faults.add(
                 f"elements.{e.name}.control",
-                f"no such element {e.control_element!r}{_hint(e.control_element, names)}",
+                f"no such element {e.control_element!r}{faults.hint(e.control_element, names)}",
             )
 
 
@@ -992,6 +1101,13 @@ def _toml(text: str, faults: _Faults) -> dict[str, Any] | None:
     except RecursionError:
         faults.add("", "TOML syntax error: nested too deeply")
         return None
+    except ValueError as exc:  # e.g. an integer of thousands of digits
+        faults.add("", f"TOML value that cannot be read: {_plain(str(exc))}")
+        return None
+
+
+def _plain(message: str) -> str:
+    return "a number has too many digits" if "digits" in message else "unreadable value"
 
 
 def _declared_nodes(raw: Any) -> set[str]:
@@ -1040,7 +1156,26 @@ def parse_project(source: bytes | str, path: str = "<input>") -> Project:
     >>> [e.name for e in p.elements], p.nodes
     (['V1', 'R1', 'R2'], ('gnd', 'in', 'out'))
     """
-    raw_bytes = source.encode("utf-8") if isinstance(source, str) else bytes(source)
+    # The loader makes millions of small acyclic objects on a large file; the
+    # cyclic collector would walk them all again and again for nothing.
+    collecting = gc.isenabled()
+    gc.disable()
+    try:
+        return _parse_project(source, path)
+    finally:
+        if collecting:
+            gc.enable()
+
+
+def _parse_project(source: bytes | str, path: str) -> Project:
+    if len(source) > MAX_FILE_BYTES:
+        raise ProjectError([Fault("", _too_big(len(source)))], path)
+    try:
+        raw_bytes = source.encode("utf-8") if isinstance(source, str) else bytes(source)
+    except UnicodeEncodeError as exc:
+        raise ProjectError(
+            [Fault("", f"the text is not valid Unicode (character {exc.start + 1})")], path
+        ) from None
     faults = _Faults()
     try:
         text = raw_bytes.decode("utf-8")
@@ -1048,9 +1183,12 @@ def parse_project(source: bytes | str, path: str = "<input>") -> Project:
         raise ProjectError(
             [Fault("", f"the file is not UTF-8 text (byte {exc.start + 1})")], path
         ) from None
+    text = text.removeprefix("\ufeff")  # a byte-order mark is accepted
+    _check_lines(text, path)
     data = _toml(text, faults)
     if data is None:
         raise ProjectError(faults.items, path)
+    _check_counts(data, path)
     _keys(data, TOP_KEYS, "", faults)
     schema = data.get("schema", 1)
     if schema != 1 or isinstance(schema, bool):
@@ -1108,9 +1246,101 @@ def parse_project(source: bytes | str, path: str = "<input>") -> Project:
         report=report,
     )
     _check_case_values(project, faults)
+    _check_sample_size(project, faults)
     if faults.items:
         raise ProjectError(faults.items, path)
-    return project
+    warnings = _case_clashes("element", [e.name for e in project.elements])
+    warnings += _case_clashes("node", list(project.nodes))
+    return replace(project, warnings=tuple(warnings)) if warnings else project
+
+
+def _too_big(size: int, *, at_least: bool = False) -> str:
+    size_text = f"more than {MAX_FILE_BYTES:,}" if at_least else f"{size:,}"
+    return (
+        f"the file is {size_text} bytes; the limit for a project file is "
+        f"{MAX_FILE_BYTES:,} bytes ({MAX_FILE_BYTES // 1_000_000} MB)"
+    )
+
+
+def _check_lines(text: str, path: str) -> None:
+    """Refuse, before parsing, a file with too many lines or tables, or a line too long.
+
+    Parsing time and memory grow with the number of TOML tables and keys;
+    the package prints every line of the input verbatim.
+    """
+    if len(text) <= MAX_LINE_CHARS:
+        return
+    lines = text.count("\n") + 1
+    if lines > MAX_LINES:
+        raise ProjectError([Fault("", f"{lines:,} lines; the limit is {MAX_LINES:,}")], path)
+    headers = len(_TABLE_HEADER.findall(text))
+    if headers > MAX_TABLES:
+        raise ProjectError([Fault("", f"{headers:,} [tables]; the limit is {MAX_TABLES:,}")], path)
+    longest = max(text.splitlines() or [""], key=len)
+    if len(longest) > MAX_LINE_CHARS:
+        line = text.count("\n", 0, text.index(longest)) + 1
+        raise ProjectError(
+            [
+                Fault(
+                    "",
+                    f"the line is {len(longest):,} characters long; the limit is "
+                    f"{MAX_LINE_CHARS:,} (continue a long text on the next line with a "
+                    'backslash at the end of the line, in a """...""" string)',
+                    line,
+                )
+            ],
+            path,
+        )
+
+
+def _check_counts(data: Mapping[str, Any], path: str) -> None:
+    """Refuse oversized sections before any work is spent on them (one fault each)."""
+    over = []
+    for key, limit, what in (
+        ("elements", MAX_ELEMENTS, "elements"),
+        ("parameters", MAX_PARAMETERS, "parameters"),
+        ("cases", MAX_CASES, "cases"),
+        ("sweeps", MAX_SWEEPS, "sweeps"),
+    ):
+        section = data.get(key)
+        if isinstance(section, (dict, list)) and len(section) > limit:
+            over.append(Fault(key, f"{len(section):,} {what}; the limit is {limit:,}"))
+    elements = data.get("elements")
+    if not over and isinstance(elements, dict):
+        nodes = _declared_nodes(elements)
+        if len(nodes) > MAX_NODES:
+            over.append(Fault("elements", f"{len(nodes):,} nodes; the limit is {MAX_NODES:,}"))
+    if over:
+        raise ProjectError(over, path)
+
+
+def _check_sample_size(project: Project, faults: _Faults) -> None:
+    """Monte Carlo keeps every sample's results: cap samples x (nodes + elements)."""
+    a = project.analysis
+    if a.tolerance != "montecarlo":
+        return
+    size = len(project.nodes) + len(project.elements)
+    if a.samples * size > MAX_SAMPLE_VALUES:
+        faults.add(
+            "analysis.samples",
+            f"{a.samples:,} samples of {len(project.nodes):,} nodes and "
+            f"{len(project.elements):,} elements exceed the limit of "
+            f"samples x (nodes + elements) = {MAX_SAMPLE_VALUES:,}; "
+            f"use at most {max(MAX_SAMPLE_VALUES // size, 0):,} samples",
+        )
+
+
+def _case_clashes(what: str, names: list[str]) -> list[str]:
+    """Warnings for names that differ only in upper and lower case."""
+    groups: dict[str, list[str]] = {}
+    for n in names:
+        groups.setdefault(n.casefold(), []).append(n)
+    return [
+        f"{what} names {', '.join(repr(n) for n in group)} differ only in upper and lower case; "
+        "they are different names, but a reader may take them for one"
+        for group in groups.values()
+        if len(set(group)) > 1
+    ]
 
 
 def _check_case_values(project: Project, faults: _Faults) -> None:
@@ -1144,7 +1374,7 @@ def read_project(path: str | Path, *, reader: Callable[[Path], bytes] | None = N
     """
     p = Path(path)
     try:
-        data = reader(p) if reader else p.read_bytes()
+        data = reader(p) if reader else _read_bounded(p)
     except OSError as exc:
         raise ProjectError(
             [Fault("", f"cannot read the file: {exc.strerror or exc}")], str(path)
@@ -1152,3 +1382,15 @@ def read_project(path: str | Path, *, reader: Callable[[Path], bytes] | None = N
     from calcdoc.model.assets import with_assets
 
     return with_assets(parse_project(data, str(path)), p)
+
+
+def _read_bounded(path: Path) -> bytes:
+    """The file's bytes; a file over the size cap is refused before it is read."""
+    size = path.stat().st_size
+    if size > MAX_FILE_BYTES:
+        raise ProjectError([Fault("", _too_big(size))], str(path))
+    with path.open("rb") as fh:  # a device or pipe has no size: read at most one byte more
+        data = fh.read(MAX_FILE_BYTES + 1)
+    if len(data) > MAX_FILE_BYTES:
+        raise ProjectError([Fault("", _too_big(len(data), at_least=True))], str(path))
+    return data

@@ -233,6 +233,8 @@ class Project:
     report: ReportSettings = field(default_factory=ReportSettings)
     # style, logo and seal, read by the file loader (calcdoc.model.assets); not part of the input's identity
     assets: Assets = field(default_factory=Assets, compare=False, repr=False)
+    #: Things worth a reader's attention that are not errors (names differing only in case).
+    warnings: tuple[str, ...] = ()
 
     def element(self, name: str) -> Element:
         for e in self.elements:

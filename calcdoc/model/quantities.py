@@ -110,6 +110,97 @@ class QuantityError(ValueError):
 
 
 # --------------------------------------------------------------------------
+# size bounds: checked on the text, before any big-number arithmetic
+# --------------------------------------------------------------------------
+
+#: Magnitudes a physical value may have, in SI base units (zero is allowed too).
+PHYSICAL_MIN = 1e-30
+PHYSICAL_MAX = 1e30
+PHYSICAL_RANGE_TEXT = "magnitudes from 1e-30 to 1e30 in SI units, or zero"
+#: A written number may have at most this many digits ...
+MAX_DIGITS = 100
+#: ... and a decimal exponent (of its leading digit) within this bound.
+MAX_DECIMAL_EXPONENT = 200
+#: Powers written on a unit (``ohm^2``) and dimension exponents of any value.
+MAX_UNIT_POWER = 12
+MAX_DIMENSION_POWER = 60
+
+_DECIMAL = re.compile(r"\s*([+-]?)(\d*)(?:\.(\d*))?(?:[eE]([+-]?\d+))?\s*")
+
+
+def parse_number(text: str) -> Fraction:
+    """The exact value of a decimal number, refusing absurd sizes before computing.
+
+    ``Fraction("1e100000000")`` would build a hundred-million-digit integer
+    (minutes of work that Ctrl-C cannot interrupt), so the digits and the
+    exponent are checked on the text first.
+
+    >>> parse_number("2.2e3"), parse_number("-.5")
+    (Fraction(2200, 1), Fraction(-1, 2))
+    >>> parse_number("1e100000000")
+    Traceback (most recent call last):
+    ...
+    calcdoc.model.quantities.QuantityError: the number 1e100000000 is far outside the range of physical values (magnitudes from 1e-30 to 1e30 in SI units, or zero)
+    """
+    m = _DECIMAL.fullmatch(text)
+    if not m or not (m.group(2) or m.group(3)):
+        raise QuantityError(f"{text!r} is not a number")
+    sign, whole, frac, exp = m.groups()
+    frac = frac or ""
+    shown = text.strip() if len(text.strip()) <= 40 else text.strip()[:37] + "..."
+    if len(whole) + len(frac) > MAX_DIGITS:
+        raise QuantityError(f"the number {shown} has more than {MAX_DIGITS} digits")
+    significant = (whole + frac).lstrip("0")
+    if not significant:
+        return Fraction(0)
+    exponent = 0
+    if exp:
+        if len(exp.lstrip("+-").lstrip("0")) > 6:
+            exponent = MAX_DECIMAL_EXPONENT * 2 * (-1 if exp.startswith("-") else 1)
+        else:
+            exponent = int(exp)
+    lead = (
+        len(whole.lstrip("0")) - 1
+        if whole.lstrip("0")
+        else -(len(frac) - len(frac.lstrip("0")) + 1)
+    )
+    if abs(lead + exponent) > MAX_DECIMAL_EXPONENT:
+        raise QuantityError(
+            f"the number {shown} is far outside the range of physical values ({PHYSICAL_RANGE_TEXT})"
+        )
+    return Fraction(f"{sign}{whole or '0'}.{frac or '0'}e{exponent}")
+
+
+def check_dimension(dim: Dimension) -> Dimension:
+    """``dim`` itself, or :class:`QuantityError` when a unit power is beyond any physical use."""
+    if any(abs(d) > MAX_DIMENSION_POWER for d in dim):
+        raise QuantityError(
+            f"the units have powers beyond ±{MAX_DIMENSION_POWER}, which no physical value has"
+        )
+    return dim
+
+
+def outside_physical_range(magnitude: Number) -> str | None:
+    """Why ``magnitude`` (SI) cannot be a physical value, or None when it can."""
+    if isinstance(magnitude, float):
+        if magnitude != magnitude:
+            return "the value is not a number (nan)"
+        if magnitude in (float("inf"), float("-inf")):
+            return "the value is infinite"
+    if magnitude == 0:
+        return None
+    try:
+        size = abs(float(magnitude))
+    except OverflowError:
+        size = float("inf")
+    small, large = size < PHYSICAL_MIN, size > PHYSICAL_MAX
+    if small or large:
+        word = "small" if small else "large"
+        return f"the value is too {word} to be a physical quantity ({PHYSICAL_RANGE_TEXT})"
+    return None
+
+
+# --------------------------------------------------------------------------
 # unit table
 # --------------------------------------------------------------------------
 
@@ -180,13 +271,19 @@ def _table_unit(text: str) -> tuple[Fraction, Dimension] | None:
         atom = _table_atom(m.group(1))
         if atom is None:
             return None
-        power = int(m.group(2)) if m.group(2) else 1
+        power = _unit_power(m.group(2)) if m.group(2) else 1
         f, d = atom[0] ** power, dim_pow(atom[1], power)
         if op == "/":
             factor, dim = factor / f, dim_div(dim, d)
         else:
             factor, dim = factor * f, dim_mul(dim, d)
     return factor, dim
+
+
+def _unit_power(text: str) -> int:
+    if len(text.lstrip("-").lstrip("0")) > 2 or abs(int(text)) > MAX_UNIT_POWER:
+        raise QuantityError(f"powers on a unit are limited to ±{MAX_UNIT_POWER}")
+    return int(text)
 
 
 @lru_cache(maxsize=1)
@@ -215,13 +312,19 @@ def _pint_unit(text: str) -> tuple[Fraction, Dimension]:
     extra = set(dims) - set(_PINT_DIMS)
     if extra:
         raise QuantityError(f"unit {text!r} has a dimension calcdoc does not use")
-    dim = tuple(int(dims.get(d, 0)) for d in _PINT_DIMS)
+    powers = [dims.get(d, 0) for d in _PINT_DIMS]
+    if any(p != int(p) for p in powers):
+        raise QuantityError(f"unit {text!r} has a fractional power")
+    dim = check_dimension(tuple(int(p) for p in powers))  # type: ignore[arg-type]
     mag = q.magnitude
     try:
-        factor = Fraction(repr(float(mag)))
+        size = float(mag)
+        factor = Fraction(repr(size))
     except (ValueError, OverflowError) as exc:
         raise QuantityError(f"unit {text!r} has no finite size") from exc
-    return factor, dim  # type: ignore[return-value]
+    if size == 0 or not 1e-100 < abs(size) < 1e100:
+        raise QuantityError(f"unit {text!r} is far outside the range of physical values")
+    return factor, dim
 
 
 def unit_factor(text: str) -> tuple[Fraction, Dimension]:
@@ -244,7 +347,7 @@ def unit_factor(text: str) -> tuple[Fraction, Dimension]:
     """
     hit = _table_unit(text)
     if hit is not None:
-        return hit
+        return hit[0], check_dimension(hit[1])
     if text.strip() in ("degC", "°C", "degF", "°F", "℃"):
         raise QuantityError("a temperature in °C is only accepted where a temperature is asked for")
     return _pint_unit(text.strip())
@@ -276,7 +379,10 @@ def parse_rkm(text: str) -> Fraction | None:
     if not m or not (m.group(1) or m.group(3)):
         return None
     whole, letter, frac = m.groups()
-    number = Fraction(f"{whole or '0'}.{frac or '0'}")
+    try:
+        number = parse_number(f"{whole or '0'}.{frac or '0'}")
+    except QuantityError:
+        return None
     return number * _RKM_FACTOR[letter]
 
 
@@ -310,7 +416,7 @@ def parse_quantity(text: str) -> Quantity:
     m = _NUMBER.match(text)
     if not m:
         raise QuantityError(f"{text!r} does not start with a number")
-    number = Fraction(m.group(1))
+    number = parse_number(m.group(1))
     factor, dim = unit_factor(text[m.end() :])
     return Quantity(number * factor, dim)
 
@@ -323,10 +429,12 @@ def parse_temperature(text: str) -> Fraction:
     """
     if not isinstance(text, str):
         raise QuantityError('expected a temperature string such as "70 °C"')
+    if len(text) > 100:
+        raise QuantityError("a temperature is written in at most 100 characters")
     m = _NUMBER.match(text)
     if not m:
         raise QuantityError(f"{text!r} does not start with a number")
-    number = Fraction(m.group(1))
+    number = parse_number(m.group(1))
     unit = text[m.end() :].strip()
     if unit in ("°C", "degC", "℃", "C"):
         return number

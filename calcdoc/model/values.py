@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 
-from calcdoc.model.expressions import evaluate, names_in
+from calcdoc.model.expressions import ExpressionError, evaluate, names_in
 from calcdoc.model.project import Case, Project
 from calcdoc.model.quantities import Number, Quantity
 
@@ -31,21 +31,32 @@ def parameter_values(
     base = {p.name: p.value for p in project.parameters}
     if not overrides:
         return base
-    out: dict[str, Quantity] = {}
     exprs = {p.name: p.expr for p in project.parameters}
-
-    def value(name: str) -> Quantity:
-        if name in out:
-            return out[name]
-        if name in overrides:
-            out[name] = overrides[name]
-        else:
-            env = {d: value(d) for d in names_in(exprs[name])}
-            out[name] = evaluate(exprs[name], env)
-        return out[name]
-
-    for name in base:
-        value(name)
+    out: dict[str, Quantity] = {}
+    expanded: set[str] = set()
+    # Depth-first in dependency order with an explicit stack (no recursion per
+    # parameter: a chain of thousands of parameters is fine).  The loader has
+    # already refused cycles and unknown names.
+    for root in base:
+        stack = [root]
+        while stack:
+            name = stack[-1]
+            if name in out:
+                stack.pop()
+            elif name in overrides:
+                out[name] = overrides[name]
+                stack.pop()
+            else:
+                missing = [d for d in names_in(exprs[name]) if d not in out]
+                if missing:
+                    if name in expanded:
+                        raise ExpressionError(f"parameter {name!r} refers to itself in a cycle")
+                    expanded.add(name)
+                    stack.extend(missing)
+                else:
+                    env = {d: out[d] for d in names_in(exprs[name])}
+                    out[name] = evaluate(exprs[name], env)
+                    stack.pop()
     return out
 
 

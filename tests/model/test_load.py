@@ -203,3 +203,114 @@ def test_mutated_projects_raise_only_project_errors(data):
 def test_random_bytes_raise_only_project_errors(blob):
     with contextlib.suppress(ProjectError):
         calcdoc.loads(blob, "fuzz.toml")
+
+
+# ---- hostile and oversized input at the loader
+
+V_AND_R = """
+[elements.V1]
+type = "voltage_source"
+nodes = ["a", "gnd"]
+value = "5 V"
+[elements.R1]
+type = "resistor"
+nodes = ["a", "gnd"]
+value = "{value}"
+"""
+
+
+def test_parameters_resolve_in_any_order_without_recursion():
+    # p0 = p1 + 1 Ω, p1 = p2 + 1 Ω, ... p4999 = 1 Ω: p0 = 5000 Ω (arithmetic series)
+    chain = "".join(f'p{i} = "p{i + 1} + 1 ohm"\n' for i in range(4999))
+    p = calcdoc.loads("[parameters]\n" + chain + 'p4999 = "1 ohm"\n' + V_AND_R.format(value="p0"))
+    assert p.element("R1").value == 5000
+
+
+def test_parameter_cycle_is_named():
+    text = '[parameters]\na = "b * 2"\nb = "c * 2"\nc = "a * 2"\n' + V_AND_R.format(value="1k")
+    [(path, message)] = faults_of(text)
+    assert path == "parameters.a" and message.endswith("a → b → c → a")
+
+
+@pytest.mark.parametrize(
+    ("value", "ok"),
+    [
+        ("1e30 ohm", True),
+        ("1.000001e30 ohm", False),
+        ("1e-30 ohm", True),
+        ("0.99e-30 ohm", False),
+        ("1 Tohm * 1 Tohm * 1 Tohm / 1 ohm^2", False),  # 1e36 Ω
+    ],
+)
+def test_physical_range_is_the_stated_one(value, ok):
+    text = V_AND_R.format(value=value)
+    if ok:
+        assert calcdoc.loads(text).element("R1").value > 0
+    else:
+        [(path, message)] = faults_of(text)
+        assert path == "elements.R1.value" and "to be a physical quantity" in message
+
+
+def test_parameter_outside_the_physical_range_is_named():
+    text = '[parameters]\nbig = "1e31 m"\n' + V_AND_R.format(value="1k")
+    assert faults_of(text) == [
+        (
+            "parameters.big",
+            "the value is too large to be a physical quantity "
+            "(magnitudes from 1e-30 to 1e30 in SI units, or zero)",
+        )
+    ]
+
+
+def test_toml_infinity_is_named():
+    text = V_AND_R.format(value="1k") + "[limits]\nvoltage_fraction = -inf\n"
+    [(path, message)] = faults_of(text)
+    assert path == "limits.voltage_fraction" and "infinity (inf)" in message
+
+
+def test_byte_order_mark_is_accepted_and_hashed_as_given():
+    import hashlib
+
+    raw = b"\xef\xbb\xbf" + V_AND_R.format(value="1k").encode()
+    p = calcdoc.loads(raw)
+    assert p.sha256 == hashlib.sha256(raw).hexdigest()  # the file as it is on disk
+
+
+def test_names_differing_in_case_are_warnings_not_faults():
+    text = V_AND_R.format(value="1k") + (
+        '[elements.r1]\ntype = "resistor"\nnodes = ["A", "a"]\nvalue = "1k"\n'
+    )
+    p = calcdoc.loads(text)
+    assert len(p.warnings) == 2
+    assert "element names 'R1', 'r1'" in p.warnings[0]
+    assert "node names 'a', 'A'" in p.warnings[1]
+    assert calcdoc.loads(V_AND_R.format(value="1k")).warnings == ()
+
+
+def test_long_key_paths_and_many_faults_stay_readable():
+    long_key = "k" * 5000
+    text = V_AND_R.format(value="1k") + f"{long_key} = 1\n"
+    with pytest.raises(ProjectError) as info:
+        calcdoc.loads(text, "p.toml")
+    assert len(info.value.message) < 400 and info.value.message.endswith("...: unknown key")
+
+
+def test_case_override_at_the_end_of_a_long_parameter_chain():
+    # a case sets the last of 5,000 chained parameters; every dependant follows
+    chain = "".join(f'p{i} = "p{i + 1} + 1 ohm"\n' for i in range(4999))
+    text = (
+        "[parameters]\n"
+        + chain
+        + 'p4999 = "1 ohm"\n'
+        + V_AND_R.format(value="p0")
+        + '[[cases]]\nname = "more"\nset = { p4999 = "1001 ohm" }\n'
+    )
+    from calcdoc.model.values import element_values
+
+    p = calcdoc.loads(text)
+    assert element_values(p, p.cases[0])["R1"] == 4999 + 1001  # arithmetic series
+
+
+def test_text_that_is_not_unicode_is_an_input_error():
+    with pytest.raises(ProjectError, match="not valid Unicode"):
+        calcdoc.loads("title = '\ud800'", "p.toml")
