@@ -36,6 +36,15 @@ def _dev(d: float) -> str:
     return f"{signed(d * 100, 3)} %"
 
 
+def found(x) -> str:
+    """How an output's extremes were found: proved at vertices, or where the search ended."""
+    if x.how == "vertices, proved":
+        return "vertices (proved)"
+    if x.min_where == x.max_where:
+        return "both " + ("inside" if x.min_where == "inside" else "at vertices")
+    return f"low {x.min_where}, high {x.max_where}".replace("vertex", "at a vertex")
+
+
 def tolerance_method(t) -> str:
     if t.method == "extreme":
         hows = {x.how for x in t.nodes.values()} | {
@@ -52,7 +61,7 @@ def tolerance_method(t) -> str:
         text = f"Extreme values: {where}."
         if "vertices, proved" in hows:
             text += (
-                " An output marked 'vertex, proved' (a node voltage, an element voltage or "
+                " An output marked 'vertices (proved)' (a node voltage, an element voltage or "
                 "current, with every toleranced quantity an element's own value) is a ratio of "
                 "functions affine in each value, hence monotonic in each value across its band, "
                 "so its extremes lie at vertices: the values shown are the exact extremes."
@@ -133,7 +142,10 @@ def tolerance_section(lay: Layout) -> list[Flowable]:
             names = [q.name for q in t.quantities]
             mc = t.method == "montecarlo"
             show_at = not mc and len(names) <= 4
+            extreme = t.method == "extreme"
             head = ["Node", "Nominal", "Lowest", "Highest"]
+            if extreme:
+                head += ["Found"]
             if mc:
                 head += ["Mean", "Std. dev.", "1 % / 99 %"]
             elif show_at:
@@ -141,6 +153,8 @@ def tolerance_section(lay: Layout) -> list[Flowable]:
             rows = []
             for n, x in t.nodes.items():
                 row = [n, *(lay.num(res.clip(v, "V"), "V") for v in (x.nominal, x.min, x.max))]
+                if extreme:
+                    row.append(found(x))
                 if mc:
                     row += [lay.num(res.clip(x.mean, "V"), "V"), lay.num(res.clip(x.std, "V"), "V", 3),
                             f"{lay.num(res.clip(x.p01, 'V'), 'V')} / {lay.num(res.clip(x.p99, 'V'), 'V')}"]  # fmt: skip
@@ -148,16 +162,20 @@ def tolerance_section(lay: Layout) -> list[Flowable]:
                     row += [", ".join(f"{k} {_dev(d)}" for k, d in zip(names, devs, strict=True))
                             for devs in (x.min_at, x.max_at)]  # fmt: skip
                 rows.append(row)
-            widths = [1, 1, 1, 1] + ([1, 1, 1.6] if mc else ([1.8, 1.8] if show_at else []))
+            widths = [1, 1, 1, 1] + ([1.1] if extreme else []) + (
+                [1, 1, 1.6] if mc else ([1.8, 1.8] if show_at else []))  # fmt: skip
             out.append(lay.table(head, rows, widths, right=(1, 2, 3)))
             out.append(Spacer(1, 4))
             rows = [(el, *(lay.num(res.clip(v, u), u) for v, u in
-                           ((d["power"].nominal, "W"), (d["power"].min, "W"), (d["power"].max, "W"),
-                            (d["current"].min, "A"), (d["current"].max, "A"))))
+                           ((d["power"].nominal, "W"), (d["power"].min, "W"), (d["power"].max, "W"))),
+                     *((found(d["power"]),) if extreme else ()),
+                     *(lay.num(res.clip(v, "A"), "A") for v in (d["current"].min, d["current"].max)))
                     for el, d in t.elements.items()]  # fmt: skip
             out.append(lay.table(["Element", "Power nominal", "Power lowest", "Power highest",
-                                  "Current lowest", "Current highest"], rows, [1, 1, 1, 1, 1, 1],
-                                 right=(1, 2, 3, 4, 5)))  # fmt: skip
+                                  *(["Power found"] if extreme else []),
+                                  "Current lowest", "Current highest"], rows,
+                                 [1, 1, 1, 1, *([1.1] if extreme else []), 1, 1],
+                                 right=(1, 2, 3, 5, 6) if extreme else (1, 2, 3, 4, 5)))  # fmt: skip
             if t.checks and lay.has("checks"):
                 number_ = f"{lay.plan['checks'].number}.{i + 1}"
                 out.append(lay.paragraph(f"The design checks at this case's worst case are set "
