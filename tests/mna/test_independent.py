@@ -11,6 +11,7 @@ its solution must satisfy Tellegen's theorem.
 
 from __future__ import annotations
 
+import math
 from fractions import Fraction
 
 import numpy as np
@@ -197,6 +198,19 @@ def _compare(circuit, path):
     # Tellegen's theorem: element powers of any network sum to zero.
     p = r.branches.power
     assert abs(float(np.sum(p))) <= 1e-12 * max(1.0, float(np.max(np.abs(p))))
+    # no NaN or infinity anywhere in the results object
+    _finite(calcdoc.to_json(calcdoc.solve(project)))
+
+
+def _finite(obj, path=""):
+    if isinstance(obj, float):
+        assert math.isfinite(obj), path
+    elif isinstance(obj, dict):
+        for k, v in obj.items():
+            _finite(v, f"{path}.{k}")
+    elif isinstance(obj, list):
+        for k, v in enumerate(obj):
+            _finite(v, f"{path}[{k}]")
 
 
 def _solve(text):
