@@ -23,7 +23,9 @@ def ladder(nodes: int, toleranced: int, method: str, samples: int = 10000) -> st
         for a2, b2 in ((f"n{i}", b), (f"n{i}", "gnd")):
             k += 1
             tol = '\ntolerance = "1 %"' if k <= toleranced else ""
-            out.append(f'[elements.R{k}]\ntype = "resistor"\nnodes = ["{a2}", "{b2}"]\nvalue = "{100 + k} ohm"{tol}\nrating = {{ power = "0.25 W" }}')
+            out.append(
+                f'[elements.R{k}]\ntype = "resistor"\nnodes = ["{a2}", "{b2}"]\nvalue = "{100 + k} ohm"{tol}\nrating = {{ power = "0.25 W" }}'
+            )
     out.append(f'[analysis]\ntolerance = "{method}"\nsamples = {samples}\nseed = 1')
     return "\n".join(out) + "\n"
 
@@ -41,9 +43,13 @@ def timed(text: str) -> tuple[float, object]:
 def main() -> None:
     timed(ladder(10, 4, "montecarlo", 100))  # warm up imports
     t, res = timed(ladder(51, 100, "montecarlo"))
-    print(f"Monte Carlo, 50 nodes ({len(res.quantities)} toleranced), {res.solved} samples: {t:.2f} s (target < 2 s)")
+    print(
+        f"Monte Carlo, 50 nodes ({len(res.quantities)} toleranced), {res.solved} samples: {t:.2f} s (target < 2 s)"
+    )
     t, res = timed(ladder(20, 12, "extreme"))
-    print(f"extreme value, {len(res.quantities)} toleranced, {res.solved} vertices: {t:.2f} s (target < 2 s)")
+    print(
+        f"extreme value, {len(res.quantities)} toleranced, {res.solved} vertices: {t:.2f} s (target < 2 s)"
+    )
 
 
 if __name__ == "__main__":

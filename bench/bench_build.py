@@ -31,7 +31,14 @@ def network(nodes: int = 200, elements: int = 400, seed: int = 5) -> str:
     def add(kind: str, a: str, b: str, value: str, extra: str = "") -> None:
         nonlocal count
         count += 1
-        out.extend([f"[elements.E{count}]", f'type = "{kind}"', f'nodes = ["{a}", "{b}"]', f'value = "{value}"'])
+        out.extend(
+            [
+                f"[elements.E{count}]",
+                f'type = "{kind}"',
+                f'nodes = ["{a}", "{b}"]',
+                f'value = "{value}"',
+            ]
+        )
         if extra:
             out.append(extra)
 
@@ -52,7 +59,9 @@ def run(args: list[str]) -> tuple[float, float]:
         "subprocess.run(sys.argv[1:],check=True,stdout=subprocess.DEVNULL);"
         "print(time.perf_counter()-t, resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss/1024)"
     )
-    out = subprocess.run([sys.executable, "-c", code, *args], check=True, capture_output=True, text=True)
+    out = subprocess.run(
+        [sys.executable, "-c", code, *args], check=True, capture_output=True, text=True
+    )
     wall, mem = out.stdout.split()
     return float(wall), float(mem)
 
@@ -60,13 +69,22 @@ def run(args: list[str]) -> tuple[float, float]:
 def main() -> None:
     with tempfile.TemporaryDirectory() as tmp:
         demo = ROOT / "projects" / "sensor_supply.toml"
-        times = [run([sys.executable, "-m", "calcdoc", "build", str(demo), "-q", "-o", f"{tmp}/d.pdf"]) for _ in range(3)]
-        print(f"demo package (sensor_supply): best {min(t for t, _ in times):.2f} s, peak {max(m for _, m in times):.0f} MB (target < 3 s)")
+        times = [
+            run([sys.executable, "-m", "calcdoc", "build", str(demo), "-q", "-o", f"{tmp}/d.pdf"])
+            for _ in range(3)
+        ]
+        print(
+            f"demo package (sensor_supply): best {min(t for t, _ in times):.2f} s, peak {max(m for _, m in times):.0f} MB (target < 3 s)"
+        )
         big = Path(tmp) / "net200.toml"
         big.write_text(network())
-        wall, mem = run([sys.executable, "-m", "calcdoc", "build", str(big), "-q", "-o", f"{tmp}/n.pdf"])
+        wall, mem = run(
+            [sys.executable, "-m", "calcdoc", "build", str(big), "-q", "-o", f"{tmp}/n.pdf"]
+        )
         size = Path(f"{tmp}/n.pdf").stat().st_size
-        print(f"200 nodes / 400 elements: {wall:.1f} s, peak {mem:.0f} MB, {size / 1e6:.1f} MB file (target < 60 s, < 1024 MB)")
+        print(
+            f"200 nodes / 400 elements: {wall:.1f} s, peak {mem:.0f} MB, {size / 1e6:.1f} MB file (target < 60 s, < 1024 MB)"
+        )
 
 
 if __name__ == "__main__":

@@ -1,18 +1,24 @@
 """The floor for `calcdoc solve --json` on a grid: parse, assemble, solve, print.
 
-tomllib parse + scipy.sparse assembly + spsolve of the same file, with
-no validation, checks or verification: what any tool must at least do.
+The fastest installed TOML parser (tomli's compiled wheel when present,
+else the standard library's tomllib) + scipy.sparse assembly + SuperLU
+solve of the same file, with no validation, checks or verification: what
+any tool must at least do.
 """
 
 from __future__ import annotations
 
 import json
 import sys
-import tomllib
 
 import numpy as np
 from scipy.sparse import csc_matrix
 from scipy.sparse.linalg import spsolve
+
+try:
+    import tomli as tomllib
+except ImportError:  # pragma: no cover
+    import tomllib  # type: ignore[no-redef]
 
 
 def main(path: str) -> None:

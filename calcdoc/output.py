@@ -70,6 +70,8 @@ def json_safe(text: str) -> str:
     The JSON value is unchanged (the escapes mean the same characters);
     only the terminal no longer sees them raw.
     """
+    if text.isascii() and "\x7f" not in text:
+        return text  # an encoder escapes every other ASCII control character already
     return _JSON_UNSAFE.sub(_json_escape, text)
 
 
@@ -121,8 +123,17 @@ class Terminal:
             print("\r\033[K", end="", file=self.err, flush=True)
 
     def json(self, obj: Any, *, compact: bool | None = None) -> None:
-        """Print ``obj`` as JSON; large objects compact (the indenting encoder is slow)."""
-        text = json.dumps(obj, ensure_ascii=False, allow_nan=False)
+        """Print ``obj`` as JSON; large objects compact (the indenting encoder is slow).
+
+        orjson encodes large results about ten times faster than the standard
+        library; the values are the same either way.
+        """
+        try:
+            import orjson
+
+            text = orjson.dumps(obj).decode("utf-8")
+        except ImportError:  # pragma: no cover - orjson is a dependency
+            text = json.dumps(obj, ensure_ascii=False, allow_nan=False)
         if not compact and (compact is not None or len(text) < 200_000):
             text = json.dumps(obj, indent=1, ensure_ascii=False, allow_nan=False)
         self.out.write(json_safe(text) + "\n")

@@ -13,19 +13,6 @@ from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
-from calcdoc.analysis.envelope import envelope
-from calcdoc.analysis.preferred import preferred_findings
-from calcdoc.analysis.sensitivity import default_outputs, sensitivities
-from calcdoc.analysis.stages import (
-    EnvelopeStage,
-    HistoryStage,
-    PreferredStage,
-    SensitivityStage,
-    SweepStage,
-    ToleranceStage,
-)
-from calcdoc.analysis.sweeps import sweep_result
-from calcdoc.analysis.tolerance import tolerance_result
 from calcdoc.errors import SingularCircuitError
 from calcdoc.mna.branches import branches
 from calcdoc.mna.netlist import netlist
@@ -126,9 +113,10 @@ def analyse(project: Project, *, closed_form: bool = False) -> Results:
     cases = solve_cases(project)
     extra: dict = {}
     nominal = cases[0]
-    closed = None
     a = project.analysis
     wants_sensitivity = bool(a.sensitivity) or a.tolerance != "none"
+    # each analysis module is imported only when the project asks for it
+    closed = None
     if closed_form or wants_sensitivity:
         from calcdoc.mna.symbolic import closed_form as derive_closed
 
@@ -136,24 +124,41 @@ def analyse(project: Project, *, closed_form: bool = False) -> Results:
         if closed is not None and closed_form:
             extra["closed_form"] = closed
     if a.tolerance != "none":
+        from calcdoc.analysis.stages import ToleranceStage
+        from calcdoc.analysis.tolerance import tolerance_result
+
         per_case = tuple(tolerance_result(project, c) for c in cases)
         if any(per_case):
             extra["tolerance"] = ToleranceStage(per_case)
     if len(cases) > 1:
+        from calcdoc.analysis.envelope import envelope
+        from calcdoc.analysis.stages import EnvelopeStage
+
         extra["envelope"] = EnvelopeStage(envelope(cases))
     if wants_sensitivity:
+        from calcdoc.analysis.sensitivity import default_outputs, sensitivities
+        from calcdoc.analysis.stages import SensitivityStage
+
         outs = a.sensitivity or default_outputs(project, nominal)
         extra["sensitivity"] = SensitivityStage(
             "nominal", sensitivities(project, nominal, outs, closed)
         )
     if project.sweeps:
+        from calcdoc.analysis.stages import SweepStage
+        from calcdoc.analysis.sweeps import sweep_result
+
         extra["sweeps"] = SweepStage(
             tuple(sweep_result(project, nominal, s) for s in project.sweeps)
         )
     if any(e.series for e in project.elements):
+        from calcdoc.analysis.preferred import preferred_findings
+        from calcdoc.analysis.stages import PreferredStage
+
         extra["preferred_values"] = PreferredStage(preferred_findings(project, nominal.values))
     findings = history_findings(project)
     if findings:
+        from calcdoc.analysis.stages import HistoryStage
+
         extra["history"] = HistoryStage(findings)
     return replace(Results(project, cases), extra=extra)
 

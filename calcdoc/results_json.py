@@ -34,21 +34,33 @@ def finite(obj: Any) -> Any:
     return obj
 
 
+def floats(values: np.ndarray) -> list[float | None]:
+    """An array as plain floats, anything non-finite as None (checked in bulk)."""
+    if np.all(np.isfinite(values)):
+        return values.tolist()
+    return [_f(v) for v in values.tolist()]
+
+
+BULK = ("nodes", "elements", "kcl", "kvl")
+"""Per-case keys whose numbers are made finite where they are built (large circuits)."""
+
+
 def case_document(r: CaseResult) -> dict[str, Any]:
     """The JSON object of one case (design.md section 6)."""
     net, br = r.netlist, r.branches
-    nodes = dict(zip(net.nodes, br.node_voltage.tolist(), strict=True))
+    nodes = dict(zip(net.nodes, floats(br.node_voltage), strict=True))
     elements = {
         name: {"voltage": v, "current": i, "power": p}
         for name, v, i, p in zip(
-            net.names, br.voltage.tolist(), br.current.tolist(), br.power.tolist(), strict=True
+            net.names, floats(br.voltage), floats(br.current), floats(br.power), strict=True
         )
     }
-    kcl = dict(zip(net.nodes[1:], r.kcl[1:].tolist(), strict=True))
+    kcl = dict(zip(net.nodes[1:], floats(r.kcl[1:]), strict=True))
     if r.kvl.listed:
-        kvl = [{"loop": list(lp.elements), "sum": lp.sum} for lp in r.kvl.loops]
+        kvl = [{"loop": list(lp.elements), "sum": _f(lp.sum)} for lp in r.kvl.loops]
     else:
-        kvl = [{"chord": c, "sum": v} for c, v in zip(r.kvl.chords, r.kvl.sums, strict=True)]
+        sums = floats(np.asarray(r.kvl.sums, dtype=float))
+        kvl = [{"chord": c, "sum": v} for c, v in zip(r.kvl.chords, sums, strict=True)]
     return {
         "name": r.name,
         "nodes": nodes,
@@ -89,7 +101,7 @@ def case_document(r: CaseResult) -> dict[str, Any]:
 
 
 def results_document(results: Results) -> dict[str, Any]:
-    """The whole ``calcdoc solve --json`` object."""
+    """The whole ``calcdoc solve --json`` object (no NaN or infinity anywhere)."""
     p = results.project
     cases = [case_document(r) for r in results.cases]
     for stage, data in results.extra.items():
@@ -98,6 +110,7 @@ def results_document(results: Results) -> dict[str, Any]:
             for doc, extra in zip(cases, per_case(), strict=True):
                 if extra is not None:
                     doc[stage] = extra
+    cases = [{k: (v if k in BULK else finite(v)) for k, v in doc.items()} for doc in cases]
     out: dict[str, Any] = {
         "tool": {"name": "calcdoc", "version": __version__},
         "input": {"path": p.path, "sha256": p.sha256},
@@ -106,5 +119,5 @@ def results_document(results: Results) -> dict[str, Any]:
     for stage, data in results.extra.items():
         whole = getattr(data, "project_json", None)
         if whole is not None:
-            out[stage] = whole()
-    return finite(out)
+            out[stage] = finite(whole())
+    return out

@@ -519,14 +519,14 @@ def law_residual(st: Structure, x: np.ndarray, p: np.ndarray) -> np.ndarray:
 def extended_parameters(st: Structure) -> np.ndarray:
     """The parameters in numpy's extended precision (exact fractions divided there)."""
     out = np.empty(st.P, dtype=np.longdouble)
-    seen: dict = {}
+    seen: dict = {}  # equal values are usually one object (the loader shares literals)
     for k, v in enumerate(st.p):
-        x = seen.get(v)
+        x = seen.get(id(v))
         if x is None:
             if isinstance(v, Fraction):
                 x = np.longdouble(str(v.numerator)) / np.longdouble(str(v.denominator))
             else:
                 x = np.longdouble(v)
-            seen[v] = x
+            seen[id(v)] = x
         out[k] = x
     return out

@@ -1188,7 +1188,7 @@ def _parse_project(source: bytes | str, path: str) -> Project:
     data = _toml(text, faults)
     if data is None:
         raise ProjectError(faults.items, path)
-    _check_counts(data, path)
+    declared_nodes = _check_counts(data, path)
     _keys(data, TOP_KEYS, "", faults)
     schema = data.get("schema", 1)
     if schema != 1 or isinstance(schema, bool):
@@ -1220,7 +1220,7 @@ def _parse_project(source: bytes | str, path: str) -> Project:
             f"parameters.{name}",
             f"{name!r} is also an element name; case settings would be ambiguous",
         )
-    limits = _limits(data.get("limits"), faults, nodes, _declared_nodes(data.get("elements")))
+    limits = _limits(data.get("limits"), faults, nodes, declared_nodes)
     pmap = {p.name: p for p in params}
     declared = set(data["elements"]) if isinstance(data.get("elements"), dict) else set()
     declared |= param_names
@@ -1293,8 +1293,11 @@ def _check_lines(text: str, path: str) -> None:
         )
 
 
-def _check_counts(data: Mapping[str, Any], path: str) -> None:
-    """Refuse oversized sections before any work is spent on them (one fault each)."""
+def _check_counts(data: Mapping[str, Any], path: str) -> set[str]:
+    """Refuse oversized sections before any work is spent on them (one fault each).
+
+    Returns the node names written in the element tables.
+    """
     over = []
     for key, limit, what in (
         ("elements", MAX_ELEMENTS, "elements"),
@@ -1306,12 +1309,14 @@ def _check_counts(data: Mapping[str, Any], path: str) -> None:
         if isinstance(section, (dict, list)) and len(section) > limit:
             over.append(Fault(key, f"{len(section):,} {what}; the limit is {limit:,}"))
     elements = data.get("elements")
+    nodes: set[str] = set()
     if not over and isinstance(elements, dict):
         nodes = _declared_nodes(elements)
         if len(nodes) > MAX_NODES:
             over.append(Fault("elements", f"{len(nodes):,} nodes; the limit is {MAX_NODES:,}"))
     if over:
         raise ProjectError(over, path)
+    return nodes
 
 
 def _check_sample_size(project: Project, faults: _Faults) -> None:
