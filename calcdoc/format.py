@@ -7,6 +7,7 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 
 _PREFIX = {
     -15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T",
@@ -61,16 +62,40 @@ def percent(x: float | None, digits: int = 1) -> str:
     return f"{x * 100:.{digits}f} %"
 
 
-UNITS = {"voltage": "V", "current": "A", "power": "W", "node voltage": "V", "node": "V"}
-VALUE_UNITS = {
-    "resistor": "Ω", "voltage_source": "V", "current_source": "A",
-    "vcvs": "V/V", "vccs": "S", "ccvs": "Ω", "cccs": "A/A",
+UNITS = {
+    "voltage": "V", "current": "A", "power": "W", "node voltage": "V", "node": "V",
+    "reverse voltage": "V", "reverse_voltage": "V", "output voltage": "V", "voltage across": "V",
 }  # fmt: skip
 
 
+class _ValueUnits(Mapping):
+    """Element type → unit of its main value, read from the element table."""
+
+    def __getitem__(self, kind: str) -> str:
+        from calcdoc.model.elements import KINDS
+
+        return KINDS[kind].main.unit
+
+    def __iter__(self):
+        from calcdoc.model.elements import KINDS
+
+        return iter(KINDS)
+
+    def __len__(self) -> int:
+        from calcdoc.model.elements import KINDS
+
+        return len(KINDS)
+
+
+VALUE_UNITS: Mapping[str, str] = _ValueUnits()
+
+
 def value_text(kind: str, value: float, sig: int = 4) -> str:
-    """An element's value with its unit (gains of dimensionless kinds plain)."""
+    """An element's value with its unit (gains of dimensionless kinds plain;
+    ``—`` for a type without a value)."""
     unit = VALUE_UNITS[kind]
+    if not unit:
+        return "—"
     if unit in ("V/V", "A/A"):
         return f"{float(value):.{sig}g} {unit}"
     return eng(value, unit, sig)

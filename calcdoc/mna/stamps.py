@@ -303,11 +303,14 @@ def _structure(net: Netlist) -> Structure:
         cc[j] = col[k]
     A, z, cur, lv = (_Emitter(P) for _ in range(4))
     fixes = np.zeros(m, dtype=bool)
-    groups: dict[tuple[Law, int, str | None], list[int]] = {}
+    groups: dict[tuple[Law, int, str | None, str], list[int]] = {}
     for j, law in enumerate(laws):
-        groups.setdefault((law, int(mode[j]), KINDS[net.types[j]].control), []).append(j)
+        # the type is part of the key: equal laws may read a main value in one type
+        # and a further key in another (a contact's and a coil's resistance)
+        kind = KINDS[net.types[j]]
+        groups.setdefault((law, int(mode[j]), kind.control, kind.main.name), []).append(j)
     group_list = []
-    for (law, md, control), members in groups.items():
+    for (law, md, control, _), members in groups.items():
         J = np.array(members, dtype=np.int64)
         param = _param_index(net, J, law, more_index)
         group_list.append(Group(law, md, control, J, param))

@@ -55,7 +55,8 @@ def tex_quantity(value: float, unit: str, sig: int) -> str:
 def _sym(name: str, values, kinds, sig: int, paren: bool = True) -> str:
     if values is None:
         return tex_name(name)
-    unit = VALUE_UNITS[kinds[name]] if kinds else ""
+    # ``kinds``: element types by element name, or units by symbol name (further keys, R(K1))
+    unit = "" if not kinds else VALUE_UNITS.get(kinds[name], kinds[name])
     q = tex_quantity(float(values[name]), unit, sig)
     return f"({q})" if paren else q
 
@@ -129,7 +130,8 @@ def equation_pieces(
     values : mapping, optional
         Element values to substitute for the symbols.
     kinds : mapping, optional
-        Element types (for the value units).
+        For the value units: each symbol's unit (``Formulation.units()``), or
+        element types by element name.
     sig : int
         Significant figures of substituted values.
     """

@@ -779,8 +779,6 @@ def _section_formulation(ctx: _Ctx) -> tuple[list[Flowable], list[Flowable]]:
     out: list[Flowable] = [_section(ctx, "Formulation (nominal case)")]
     sub = _numbering(ctx)
     appendix: list[Flowable] = []
-    names, types = case.netlist.names, case.netlist.types
-    kinds = dict(zip(names, types, strict=True))
     out.append(sub("Unknowns"))
     rows = []
     for i, u in enumerate(sol.unknowns, 1):
@@ -807,8 +805,8 @@ def _section_formulation(ctx: _Ctx) -> tuple[list[Flowable], list[Flowable]]:
         if substitute:
             block.append(
                 MathLines(
-                    equation_pieces(eq, case.values, kinds, ctx.sig),
-                    eq.text(case.values),
+                    equation_pieces(eq, case.symbol_values, form.units(), ctx.sig),
+                    eq.text(case.symbol_values),
                     font=ctx.fonts.regular,
                 )
             )
