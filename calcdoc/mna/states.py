@@ -206,7 +206,21 @@ class _Base:
         cmax = (absA * r[:, None]).max(axis=0, initial=0.0)
         c = np.exp2(-np.round(np.log2(np.where(cmax > 0, cmax, 1.0))))
         self.As, self.r, self.c = A * r[:, None] * c[None, :], r, c
-        if n and not (np.all(np.isfinite(self.As)) and np.linalg.cond(self.As, 1) < SINGULAR):
+        if not n:
+            return
+        if not np.all(np.isfinite(self.As)):
+            self.ok = False
+            return
+        import warnings
+
+        from scipy.linalg import LinAlgWarning, lapack, lu_factor
+
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", LinAlgWarning)  # a zero pivot: rcond says so
+            self.factors = lu_factor(self.As, check_finite=False)
+        anorm = float(np.abs(self.As).sum(axis=0).max())
+        rcond, _ = lapack.dgecon(self.factors[0], anorm, norm="1")
+        if not rcond > 1 / SINGULAR:  # also catches a zero pivot (rcond 0) and NaN
             self.ok = False
 
     def rank(self) -> int:
@@ -217,8 +231,12 @@ class _Base:
     def solve(self, B: np.ndarray) -> np.ndarray:
         if self.lu is not None:
             return self.lu.solve(np.asarray(B, dtype=float))
+        if not self.st.n:
+            return np.zeros(B.shape)
+        from scipy.linalg import lu_solve
+
         rb = self.r[:, None] * B if B.ndim == 2 else self.r * B
-        y = np.linalg.solve(self.As, rb)
+        y = lu_solve(self.factors, rb, check_finite=False)
         return (self.c[:, None] * y) if B.ndim == 2 else self.c * y
 
 
