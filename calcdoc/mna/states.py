@@ -462,6 +462,7 @@ def device_states(net: Netlist, br: Branches, found: Found) -> StateSearch:
             ok = margin >= 0 if exact else float(margin) >= -tol
             tests.append(StateTest(text, qty, bound, float(value), float(limit), float(margin),
                                    bool(ok)))  # fmt: skip
+        tests.sort(key=lambda t: t.quantity != "current")  # the conducting piece's test first
         out.append(DeviceState(net.names[j], state, kind.laws[state].text, tuple(tests)))
     return StateSearch(found.method, found.iterations, found.pieces, tuple(out))
 

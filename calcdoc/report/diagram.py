@@ -34,6 +34,8 @@ class DiagramPart:
     kind: str
     nodes: tuple[str, str]
     label: str
+    drawing: str = ""  # the element table's symbol name (report/symbols.py); "" = by kind
+    state: str = ""  # a contact's state in the case drawn
 
 
 def rail_order(
@@ -166,6 +168,10 @@ def circuit_drawing(
 
 
 def _symbol(p: DiagramPart, x: float, y: float, a_on_top: bool, font: str) -> Group:
+    from calcdoc.report.symbols import SYMBOLS
+
+    if p.drawing in SYMBOLS:
+        return SYMBOLS[p.drawing](x, y, a_on_top, p.state, font)
     g = Group()
     ink = colors.black
     if p.kind == "resistor":

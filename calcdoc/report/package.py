@@ -40,6 +40,7 @@ from reportlab.platypus.tableofcontents import TableOfContents
 from calcdoc import __version__
 from calcdoc.format import UNITS, eng, percent, value_text
 from calcdoc.model.expressions import Literal
+from calcdoc.report import parts
 from calcdoc.report.diagram import DiagramPart, circuit_drawing, connection_rows
 from calcdoc.report.equations import equation_pieces, tex_unknown
 from calcdoc.report.fonts import register_fonts
@@ -603,6 +604,7 @@ def _section_method(ctx: _Ctx) -> list[Flowable]:
         sub("Method"),
         _p(_t(METHOD.format(exact=EXACT_LIMIT)), ctx),
         _p(_t(CONVENTIONS), ctx),
+        *(_p(_t(t), ctx) for t in parts.method_notes(ctx.results)),  # hook: report/parts.py
     ]
     out.append(_p(_t(
         f"Presentation: equations are printed in symbols for every system kept in symbolic form "
@@ -638,7 +640,7 @@ def _section_inputs(ctx: _Ctx) -> list[Flowable]:
             ctrl = f"\ncontrol V({e.control_nodes[0]}) − V({e.control_nodes[1]})"
         elif e.control_element:
             ctrl = f"\ncontrol I({e.control_element})"
-        val = value_text(e.type, float(e.value), ctx.sig)
+        val = parts.value_text(e, ctx.sig, value_text(e.type, float(e.value), ctx.sig))  # hook
         expr = "" if isinstance(e.value_expr, Literal) else e.value_text
         tol = "—"
         if e.tolerance:
@@ -649,7 +651,8 @@ def _section_inputs(ctx: _Ctx) -> list[Flowable]:
                 else f"−{float(t.minus) * 100:g} / +{float(t.plus) * 100:g} %"
             )
         rows.append((e.name, e.kind.words + ctrl, f"{e.nodes[0]} → {e.nodes[1]}",
-                     val + (f"\n= {expr}" if expr else ""), tol, _rating_text(e), e.description or ""))  # fmt: skip
+                     val + (f"\n= {expr}" if expr else ""), tol, parts.rating_text(e, _rating_text(e)),
+                     e.description or ""))  # fmt: skip
     out.append(_table(ctx, ["Element", "Type", "Nodes a → b", "Value", "Tolerance", "Rating", "Description"],
                       rows, [0.8, 1.5, 1.1, 1.3, 0.95, 1.1, 2.1],
                       marks=ctx.marks([f"elements.{e.name}" for e in p.elements])))  # fmt: skip
@@ -687,6 +690,7 @@ def _section_inputs(ctx: _Ctx) -> list[Flowable]:
         rng = " to ".join(x for x in (w.min is not None and f"≥ {eng(float(w.min), 'V', ctx.sig)}",
                                       w.max is not None and f"≤ {eng(float(w.max), 'V', ctx.sig)}") if x)  # fmt: skip
         rows.append((f"Node {w.node} window", rng))
+    rows += parts.across_rows(lim, ctx.sig)  # hook: report/parts.py
     out.append(_table(ctx, ["Limit", "Value"], rows, [2.5, 4]))
     if p.cases:
         out.append(sub("Operating cases"))
@@ -712,15 +716,19 @@ def _section_inputs(ctx: _Ctx) -> list[Flowable]:
     return out
 
 
-def _diagram_parts(p) -> list[DiagramPart]:
+def _diagram_parts(p, states=None) -> list[DiagramPart]:
+    from calcdoc.report.symbols import part_label  # hook: symbols of the newer parts
+
     parts = []
-    for e in p.elements:
+    for j, e in enumerate(p.elements):
         label = value_text(e.type, float(e.value), 3)
-        if e.control_nodes:
+        if e.control_nodes and e.kind.has_value:
             label += f" × V({e.control_nodes[0]},{e.control_nodes[1]})"
         elif e.control_element:
             label += f" × I({e.control_element})"
-        parts.append(DiagramPart(e.name, e.type, e.nodes, label))
+        state = states.state(j) if states is not None else ""
+        label = part_label(e, state, label)
+        parts.append(DiagramPart(e.name, e.type, e.nodes, label, e.drawing, state))
     return parts
 
 
@@ -729,7 +737,7 @@ def _section_diagram(ctx: _Ctx) -> list[Flowable]:
     p = r.project
     nominal = r.cases[0]
     levels = dict(zip(nominal.netlist.nodes, nominal.branches.node_voltage.tolist(), strict=True))
-    parts = _diagram_parts(p)
+    parts = _diagram_parts(p, nominal.netlist)
     head: list[Flowable] = [_section(ctx, "Circuit diagram")]
     sub = _numbering(ctx)
     out: list[Flowable] = []
@@ -798,6 +806,7 @@ def _section_formulation(ctx: _Ctx) -> tuple[list[Flowable], list[Flowable]]:
     out.append(sub("Equations"))
     out.append(_p(_t("Each equation in symbols (element names stand for their values), then with the values "
                      "substituted. KCL: the currents leaving a node through its elements sum to zero."), ctx, "small"))  # fmt: skip
+    out += [_p(_t(t), ctx, "small") for t in parts.formulation_notes(case)]  # hook: report/parts.py
     substitute = len(form.equations) <= SUBSTITUTE_LIMIT
     for k, eq in enumerate(form.equations, 1):
         block = [_p(f"<b>({k})</b> {_t(eq.title)}", ctx, "h3"),
@@ -1005,6 +1014,20 @@ def _section_verification(ctx: _Ctx) -> list[Flowable]:
         out.append(_table(ctx, ["Quantity", "Value"], rows, [3, 2]))
         if "power_chart" in ctx.style.sections and 0 < len(led.by_element) <= 40:
             out.append(_LedgerChart(ctx, list(led.by_element), led.absorbed, led.delivered))
+        out += _parts_flowables(ctx, parts.case_blocks(c, ctx.results.project, ctx.sig))  # hook
+    return out
+
+
+def _parts_flowables(ctx: _Ctx, blocks) -> list[Flowable]:
+    """Lay out the blocks of report/parts.py (hook: the layout vocabulary will take this over)."""
+    out: list[Flowable] = []
+    for b in blocks:
+        if isinstance(b, parts.Grid):
+            out.append(_table(ctx, b.header, b.rows, b.widths, fail_rows=b.failing))
+        elif b.style == "lead":
+            out += [Spacer(1, 4), _p(f"<b>{_t(b.text)}</b>", ctx, "small")]
+        else:
+            out.append(_p(_t(b.text), ctx, b.style))
     return out
 
 
