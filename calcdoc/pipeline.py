@@ -31,7 +31,7 @@ from calcdoc.mna.branches import branches
 from calcdoc.mna.netlist import netlist
 from calcdoc.mna.solve import solve
 from calcdoc.mna.stamps import structure
-from calcdoc.mna.states import device_states, find_states, searched
+from calcdoc.mna.states import device_states, find_states, repair, searched
 from calcdoc.model.derating import tcr_value
 from calcdoc.model.history import history_findings
 from calcdoc.model.project import Case, Project
@@ -71,16 +71,26 @@ def solve_case(
     states = {s.target: s.text for s in case.settings if s.state} if case else None
     net = netlist(project, vals, states)
     found = None
+    repairs = 0
     try:
         if searched(net):  # diodes: find the states in which every device's test holds
             found = find_states(net)
             net = replace(net, states=found.states)
         sol = solve(net)
+        br = branches(net, sol)
+        while found is not None and repairs < len(net.names):
+            fixed = repair(
+                net, br
+            )  # a device within rounding of a threshold, on the exact solution
+            if fixed is None:
+                break
+            net, repairs = fixed, repairs + 1
+            sol = solve(net)
+            br = branches(net, sol)
     except SingularCircuitError as exc:
         exc.case = name  # type: ignore[attr-defined]
         raise
-    br = branches(net, sol)
-    proof = device_states(net, br, found) if found is not None else None
+    proof = device_states(net, br, found, repairs) if found is not None else None
     if proof is not None and not proof.holds:
         bad = [d.element for d in proof.devices if not d.holds]
         exc = SingularCircuitError(

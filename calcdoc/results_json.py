@@ -99,7 +99,8 @@ def case_document(r: CaseResult) -> dict[str, Any]:
 
 def state_search(s: StateSearch) -> dict[str, Any]:
     """How the device states were found (the ``solver`` block's ``state_search``)."""
-    return {"method": s.method, "iterations": s.iterations, "pieces": s.pieces}
+    out = {"method": s.method, "iterations": s.iterations, "pieces": s.pieces}
+    return out | ({"note": s.note} if s.note else {})
 
 
 def device_states(s: StateSearch) -> dict[str, Any]:

@@ -57,6 +57,7 @@ from calcdoc.verify.checks import RATINGS, range_check
 
 QUANTITIES = ("voltage", "current", "power")
 MC_CHUNK = 20_000
+LISTED_SETS = 4096  # value sets up to which each one's state-search pivots are listed
 
 
 @dataclass(frozen=True)
@@ -109,7 +110,10 @@ class ToleranceResult:
     state_changes: int = 0
     """Solved value sets in which a device is in another state than in the case."""
     state_iterations: int = 0
-    """Pivots of the state searches those sets needed."""
+    """Pivots of every state search the analysis ran (its local searches included)."""
+    set_iterations: tuple[int, ...] = ()
+    """Pivots each solved value set (vertex or sample) needed, in order; 0 where the
+    case's states held.  Empty without diodes, or beyond ``LISTED_SETS`` sets."""
 
     def to_json(self) -> dict:
         names = [q.name for q in self.quantities]
@@ -140,7 +144,11 @@ class ToleranceResult:
             "nodes": {n: rng(x) for n, x in self.nodes.items()},
             "elements": {e: {q: rng(x) for q, x in d.items()} for e, d in self.elements.items()},
             **({"across": {n: rng(x) for n, x in self.across.items()}} if self.across else {}),
-            "states": {"changed": self.state_changes, "iterations": self.state_iterations},
+            "states": {
+                "changed": self.state_changes,
+                "iterations": self.state_iterations,
+                **({"per_set": list(self.set_iterations)} if self.set_iterations else {}),
+            },
             "checks": [
                 {
                     "id": c.id,
@@ -249,6 +257,7 @@ class _Runs:
         self.st = self.solver.st
         self.names = net.names
         self.changed = 0
+        self.per_set: list[int] = []
         self.iterations = 0
 
     def batch(self, P: np.ndarray, count: bool = False):
@@ -258,6 +267,7 @@ class _Runs:
         self.iterations += int(sb.iterations.sum())
         if count:
             self.changed += int(sb.changed.sum())
+            self.per_set += sb.iterations.tolist()
         return sb.batch, sb
 
     def changes(self, sb, k: int) -> tuple[tuple[str, str], ...]:
@@ -548,10 +558,14 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
     nodes, elements, across = _store(net, keys, ext, project)
     checks = _worst_checks(project, case_result.checks, nodes, elements, across, label)
     if runs.changed:
-        note += f"; {runs.changed} of the {solved} value sets put a device in another state"
+        note += (
+            f"; {runs.changed} of the {solved} value sets put a device in another state "
+            f"(found by the state search, {runs.iterations} pivots in all)"
+        )
     return ToleranceResult(
         case_result.name, a.tolerance, note, quantities, solved, nodes, elements, checks, hist,
         across, runs.changed, runs.iterations,
+        tuple(runs.per_set) if len(runs.solver.pcs) and len(runs.per_set) <= LISTED_SETS else (),
     )  # fmt: skip
 
 

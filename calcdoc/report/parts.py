@@ -139,7 +139,8 @@ def case_blocks(case, project, sig: int) -> list[Block]:
         out.append(Text(
             f"Found by {s.method} in {s.iterations} pivot{'s' if s.iterations != 1 else ''} over "
             f"{s.pieces} conducting piece{'s' if s.pieces != 1 else ''}, then confirmed on the "
-            "solution: each test below must hold (margin ≥ 0).", "small"))  # fmt: skip
+            "solution: each test below must hold (margin ≥ 0)."
+            + (f" {s.note[0].upper()}{s.note[1:]}." if s.note else ""), "small"))  # fmt: skip
         rows, failing, exact = [], [], []
         for d in s.devices:
             for k, t in enumerate(d.tests):

@@ -39,6 +39,8 @@ def test_extreme_tolerance_reports_the_state_change():
     assert dict(va.max_states) == {"D1": "conducting"} and va.min_states == ()
     assert va.how != "vertices, proved"
     assert tol.state_changes == 1 and tol.state_iterations >= 1  # only R1 low, R2 high
+    assert len(tol.set_iterations) == 4 and sum(k > 0 for k in tol.set_iterations) == 1
+    assert "1 of the 4 value sets put a device in another state" in tol.note
     i = tol.elements["D1"]["current"]
     assert i.max == pytest.approx((5 - 0.7) / 5890 - 0.7 / 1050, rel=1e-9)
     check = {c.id: c for c in tol.checks}["D1.current"]

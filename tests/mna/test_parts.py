@@ -256,3 +256,19 @@ max = "30 V"
     check = {c.id: c for c in case.checks}["across.middle"]
     assert near(check.value, 10.0) and check.bound == "min" and not check.passed
     assert near(check.margin, -2.0)
+
+
+def test_a_hair_beyond_the_threshold_is_decided_on_the_exact_solution():
+    # 0.7 V + 10⁻²⁰ V through 1 kΩ into a 0.7 V ideal diode: in floating point the
+    # source equals the threshold; exactly, the diode conducts I = 10⁻²⁰/1000 A
+    # (closed form, Ohm's law; common practice, no source).
+    from fractions import Fraction
+
+    case = solve_parts([
+        ("V1", "voltage_source", ("in", "gnd"), {"value": "0.70000000000000000001 V"}),
+        ("R1", "resistor", ("in", "a"), {"value": "1 kohm"}),
+        ("D1", "diode", ("a", "gnd"), {"forward_voltage": "0.7 V"}),
+    ]).cases[0]  # fmt: skip
+    assert state_of(case, "D1") == "conducting"
+    assert case.branches.exact_current[case.netlist.index("D1")] == Fraction(1, 10**23)
+    assert case.states.holds
