@@ -106,6 +106,8 @@ class StateSolver:
 
     def structure_at(self, p: np.ndarray) -> Structure:
         """The structure in the consistent states at one parameter set."""
+        if not len(self.pcs):
+            return self.st
         sb = self.solve(p[None])
         return self.structure_for(sb.assignments[int(sb.states[0])])
 
