@@ -532,7 +532,11 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
             )  # fmt: skip
         solved = K
         label = f"{K} samples (sample extremes)"
-        varying = [k for k in range(1, len(net.nodes)) if np.ptp(Y[:, keys.index(("node", k))]) > 0]
+
+        def spread(col: np.ndarray) -> bool:  # more than rounding (an ideal short's node is not)
+            return float(np.ptp(col)) > 1e-9 * max(float(np.max(np.abs(col))), 1e-300)
+
+        varying = [k for k in range(1, len(net.nodes)) if spread(Y[:, keys.index(("node", k))])]
         if varying:
             k = varying[0]
             counts, edges = np.histogram(Y[:, keys.index(("node", k))], bins=24)

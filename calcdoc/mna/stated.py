@@ -2,11 +2,12 @@
 
 Tolerance samples and vertices and sweep points change element values; a
 diode may change state between them.  :class:`StateSolver` solves every
-set in the case's states first (one batched solve), keeps the rows where
-every device passes its test, and runs the state search
-(:func:`calcdoc.mna.states.find_states`, started from the case's states)
-for the others, which are then solved in their own states, grouped by
-assignment.  Each row's states and search pivots are reported.
+set in the case's states first (one batched solve) and keeps the rows
+where every device passes its test.  For the others it runs the state
+search (:func:`calcdoc.mna.states.find_states`, started from the case's
+states) on one set, tries the states found on all the sets left (one
+batched solve, kept where every test passes), and repeats until none is
+left.  Each row's states and search pivots are reported.
 """
 
 from __future__ import annotations
@@ -28,7 +29,7 @@ class StatedBatch:
     ``batch`` holds the results in row order; ``states[k]`` is the index
     into ``assignments`` of row k's states (0: the case's own);
     ``iterations[k]`` the pivots the search took for row k (0 where the
-    case's states held).
+    case's states held, or the states another row's search had found).
     """
 
     batch: Batch
@@ -88,19 +89,28 @@ class StateSolver:
         assignments = [own]
         which = np.zeros(K, dtype=np.int64)
         iterations = np.zeros(K, dtype=np.int64)
-        for k in np.flatnonzero(~good).tolist():
+        parts: dict[int, tuple[np.ndarray, Batch | None]] = {0: (np.flatnonzero(good), None)}
+        left = np.flatnonzero(~good)
+        while len(left):
+            k = int(left[0])  # search one set, then try its states on all that are left
             f = find_states(self.net, p[k], start=self.net)
-            if f.states not in assignments:
-                assignments.append(f.states)
-            which[k] = assignments.index(f.states)
             iterations[k] = f.iterations
-        parts = {}
-        for a in np.unique(which).tolist():
-            rows = np.flatnonzero(which == a)
-            if a == 0 and b is not None:
-                parts[a] = (rows, None)
-                continue
-            parts[a] = (rows, solve_batch(self.structure_for(assignments[a]), p[rows]))
+            a = len(assignments)
+            assignments.append(f.states)
+            st = self.structure_for(f.states)
+            try:
+                trial = solve_batch(st, p[left])
+                fits = holds(self.pcs, st.net, pe[left], trial)
+            except (np.linalg.LinAlgError, RuntimeError):
+                trial, fits = solve_batch(st, p[[k]]), np.zeros(len(left), dtype=bool)
+                fits[0] = True
+            fits[0] = True  # the searched set itself (its states were proved by the search)
+            rows = left[fits]
+            which[rows] = a
+            parts[a] = (rows, _rows(trial, fits) if not fits.all() else trial)
+            left = left[~fits]
+        if b is None:
+            del parts[0]
         out = _merge(b, parts, K)
         return StatedBatch(out, tuple(assignments), which, iterations)
 
@@ -110,6 +120,10 @@ class StateSolver:
             return self.st
         sb = self.solve(p[None])
         return self.structure_for(sb.assignments[int(sb.states[0])])
+
+
+def _rows(b: Batch, mask: np.ndarray) -> Batch:
+    return Batch(b.node_voltage[mask], b.voltage[mask], b.current[mask], b.power[mask], b.x[mask])
 
 
 def _merge(b: Batch | None, parts: dict, K: int) -> Batch:
