@@ -29,9 +29,10 @@ from calcdoc.analysis.tolerance import tolerance_result
 from calcdoc.errors import SingularCircuitError
 from calcdoc.mna.branches import branches
 from calcdoc.mna.netlist import netlist
+from calcdoc.mna.proof import device_states, repair
 from calcdoc.mna.solve import solve
 from calcdoc.mna.stamps import structure
-from calcdoc.mna.states import device_states, find_states, repair, searched
+from calcdoc.mna.states import find_states, searched
 from calcdoc.model.derating import tcr_value
 from calcdoc.model.history import history_findings
 from calcdoc.model.project import Case, Project

@@ -24,7 +24,7 @@ After the search the circuit is solved again in the states found, by the
 ordinary solver (exactly where it is small), and every device's
 consistency test is evaluated on that solution: conducting needs its
 current ≥ 0, blocking needs −Vbr ≤ V ≤ Vf, breakdown needs its current ≤ 0
-(:func:`device_states`).  Should Lemke's method end on a ray (possible with
+(:mod:`calcdoc.mna.proof`).  Should Lemke's method end on a ray (possible with
 controlled sources, where M may lack the properties that make a ray a
 proof), every combination of states is tried for up to
 ``ENUMERATION_LIMIT`` pieces; a circuit with no consistent combination is
@@ -43,7 +43,7 @@ from calcdoc.mna.diagnose import name_list
 from calcdoc.mna.lcp import ENUMERATION_LIMIT, enumerate_solutions, lemke
 from calcdoc.mna.stamps import OWN, Structure, float_system, structure
 from calcdoc.model.elements import KINDS, Knee
-from calcdoc.results import Branches, DeviceState, Netlist, StateSearch, StateTest
+from calcdoc.results import Netlist
 
 DENSE = 400  # unknowns up to which the base is factorised densely (and its rank found)
 SINGULAR = 1e13  # condition of the equilibrated base matrix above which it counts as singular
@@ -405,99 +405,7 @@ def _every(net: Netlist, pcs: Pieces, pe: np.ndarray, pivots: int, ray: np.ndarr
     )
 
 
-# --------------------------------------------------------------------------
-# the proof on the final solution
-# --------------------------------------------------------------------------
-
-
-def _key_value(net: Netlist, j: int, key: str):
-    kind = KINDS[net.types[j]]
-    if key == kind.main.name:
-        return net.values[j]
-    for jj, k, v in net.more:
-        if jj == j and k == key:
-            return v
-    return None
-
-
-def _tests(net: Netlist, br: Branches, j: int) -> list[tuple[Knee, StateTest]]:
-    """Each piece of device ``j`` with its test on the solution (exact where the solve was)."""
-    kind = KINDS[net.types[j]]
-    exact = br.exact_node_voltage is not None and br.exact_current is not None
-    big_i = float(np.max(np.abs(br.current))) if len(br.current) else 0.0
-    big_v = float(np.max(np.abs(br.node_voltage))) if len(br.node_voltage) else 0.0
-    state = net.state(j)
-    if exact:
-        nv = br.exact_node_voltage
-        v = nv[int(net.a[j])] - nv[int(net.b[j])]  # type: ignore[index]
-        i = br.exact_current[j]  # type: ignore[index]
-    else:
-        v, i = float(br.voltage[j]), float(br.current[j])
-    out = []
-    for knee in kind.knees:
-        thr = _key_value(net, j, knee.threshold)
-        if thr is None:
-            continue
-        d = knee.direction
-        if state == knee.state:
-            bound = "min" if d > 0 else "max"
-            margin = d * i
-            text = "I ≥ 0" if d > 0 else "I ≤ 0"
-            value, limit, qty, tol = i, 0, "current", ROUNDING * big_i
-        else:
-            bound = "max" if d > 0 else "min"
-            limit = d * thr
-            margin = thr - d * v
-            text = f"V ≤ {knee.symbol}" if d > 0 else f"V ≥ −{knee.symbol}"
-            value, qty = v, "voltage"
-            tol = ROUNDING * max(big_v, abs(float(thr)))
-        ok = margin >= 0 if exact else float(margin) >= -tol
-        out.append((knee, StateTest(text, qty, bound, float(value), float(limit), float(margin),
-                                    bool(ok))))  # fmt: skip
-    out.sort(key=lambda kt: kt[1].quantity != "current")  # the conducting piece's test first
-    return out
-
-
-def device_states(net: Netlist, br: Branches, found: Found, repairs: int = 0) -> StateSearch:
-    """Every searched device's state with the tests that confirm it, on the solution.
-
-    Uses the exact node voltages and currents where the solve was exact, so
-    the margins are then exact too.  ``repairs``: states changed after the
-    search (:func:`repair`), counted with its iterations.
-    """
-    out = []
-    for j, t in enumerate(net.types):
-        kind = KINDS[t]
-        if kind.searched:
-            tests = tuple(test for _, test in _tests(net, br, j))
-            state = net.state(j)
-            out.append(DeviceState(net.names[j], state, kind.laws[state].text, tests))
-    note = f"{repairs} state change(s) after the search, on the exact solution" if repairs else ""
-    return StateSearch(found.method, found.iterations + repairs, found.pieces, tuple(out), note)
-
-
-def repair(net: Netlist, br: Branches) -> Netlist | None:
-    """The states one step nearer consistency, or None when every test holds.
-
-    The search runs in floating point; on an exact solution a device within
-    rounding of a threshold may fail its test by a hair.  Each such device
-    moves to the state its failing test points to: a conducting piece with
-    current against it stops conducting, a piece whose slack is negative
-    starts.
-    """
-    changes: dict[int, str] = {}
-    for j, t in enumerate(net.types):
-        kind = KINDS[t]
-        if not kind.searched:
-            continue
-        for knee, test in _tests(net, br, j):
-            if not test.holds:
-                changes[j] = kind.states[0] if net.state(j) == knee.state else knee.state
-                break
-    return with_states(net, changes) if changes else None
-
-
 __all__ = [
-    "Found", "Pieces", "allowance", "device_states", "find_states", "holds", "margins",
-    "pieces", "repair", "searched", "with_states",
+    "Found", "Pieces", "allowance", "find_states", "holds", "margins", "pieces", "searched",
+    "with_states",
 ]  # fmt: skip
