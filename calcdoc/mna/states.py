@@ -178,8 +178,9 @@ class Found:
     pieces: int
 
 
-class _Base:
-    """The circuit factorised in one base assignment of the pieces."""
+class BaseSystem:
+    """The circuit factorised in one base assignment of the pieces (at parameters ``pe``,
+    extended with the trailing 1); ``ok`` is False when it is singular."""
 
     def __init__(self, net: Netlist, pe: np.ndarray) -> None:
         self.net = net
@@ -240,7 +241,9 @@ class _Base:
         return (self.c[:, None] * y) if B.ndim == 2 else self.c * y
 
 
-def _base(net: Netlist, pcs: Pieces, pe: np.ndarray, start: np.ndarray) -> tuple[_Base, np.ndarray]:
+def _base(
+    net: Netlist, pcs: Pieces, pe: np.ndarray, start: np.ndarray
+) -> tuple[BaseSystem, np.ndarray]:
     """A nonsingular base: ``start`` if it is one, else every device off, else
     pieces turned on one at a time while the rank grows."""
     tried = []
@@ -248,18 +251,18 @@ def _base(net: Netlist, pcs: Pieces, pe: np.ndarray, start: np.ndarray) -> tuple
         if any(np.array_equal(on, t) for t in tried):
             continue
         tried.append(on)
-        b = _Base(with_states(net, pcs.states(on)), pe)
+        b = BaseSystem(with_states(net, pcs.states(on)), pe)
         if b.ok:
             return b, on
     on = np.zeros(len(pcs), dtype=bool)
-    best = _Base(with_states(net, pcs.states(on)), pe)
+    best = BaseSystem(with_states(net, pcs.states(on)), pe)
     rank = best.rank()
     for k in range(len(pcs)):
         if np.any(on & (pcs.element == pcs.element[k])):
             continue  # one piece per device
         trial = on.copy()
         trial[k] = True
-        b = _Base(with_states(net, pcs.states(trial)), pe)
+        b = BaseSystem(with_states(net, pcs.states(trial)), pe)
         if b.ok:
             return b, trial
         rb = b.rank()
@@ -272,43 +275,56 @@ class _NoBase(Exception):
     """No assignment of the pieces gives a nonsingular circuit."""
 
 
-def complementarity(base: _Base, pcs: Pieces, on: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def complementarity(base: BaseSystem, pcs: Pieces, on: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """q and M of the LCP in the free variables of a base.
 
-    Free variable of an off piece: its current z (the element carries
-    direction·z); of an on piece: its slack w (the law's constant moves by
-    −direction·w).  The paired variable, read from the solution: an off
-    piece's slack ``threshold − direction·v + R·z``, an on piece's current
-    ``direction·i``.
+    The element carries ``i = Σ direction_k·z_k`` over its pieces.  Free
+    variable of an off piece: its current z; of an on piece: its slack w.
+    With no piece of the element on, its law is ``i = 0`` and an off
+    piece's z moves that constant by ``direction``; with piece m on, the
+    law is ``v − R_m·i = d_m·threshold_m − d_m·w_m − R_m·Σ_{k≠m} d_k·z_k``
+    (from ``w_m = threshold_m − d_m·v + R_m·z_m``), so w_m moves the
+    constant by −d_m and an off piece's z by −R_m·d_k.  The paired
+    variable, read from the solution: an off piece's slack
+    ``threshold − direction·v + R·z``; an on piece's current
+    ``z_m = d_m·(i − Σ_{k≠m} d_k·z_k)``.
     """
     st, pe = base.st, base.pe
     net = st.net
     n, N, K = st.n, len(net.nodes), len(pcs)
+    d = pcs.direction
+    R = np.where(pcs.slope >= 0, pe[np.maximum(pcs.slope, 0)], 0.0)
+    on_of = {int(pcs.element[m]): m for m in np.flatnonzero(on).tolist()}  # element → its on piece
     E = np.zeros((n, K))
     for k in range(K):
-        j, d = int(pcs.element[k]), pcs.direction[k]
+        j = int(pcs.element[k])
+        m = on_of.get(j)
         if on[k]:
-            E[st.col[j], k] = -d
+            E[st.col[j], k] = -d[k]
+        elif m is not None:
+            E[st.col[j], k] = -R[m] * d[k]
         elif st.mode[j] == OWN:
-            E[st.col[j], k] = d
+            E[st.col[j], k] = d[k]
         else:
             a, b = int(net.a[j]) - 1, int(net.b[j]) - 1
             if a >= 0:
-                E[a, k] -= d
+                E[a, k] -= d[k]
             if b >= 0:
-                E[b, k] += d
+                E[b, k] += d[k]
     x0 = base.solve(base.z)
     X = base.solve(E) if K else np.zeros((n, 0))
     nv0 = np.concatenate([[0.0], x0[: N - 1]])
     NV = np.vstack([np.zeros((1, K)), X[: N - 1]])
     a, b = net.a[pcs.element], net.b[pcs.element]
     v0, V = nv0[a] - nv0[b], NV[a] - NV[b]
-    cols = st.col[pcs.element]
-    d = pcs.direction
-    q = np.where(on, d * x0[np.maximum(cols, 0)], pe[pcs.threshold] - d * v0)
-    M = np.where(on[:, None], d[:, None] * X[np.maximum(cols, 0)], -d[:, None] * V)
-    R = np.where(pcs.slope >= 0, pe[np.maximum(pcs.slope, 0)], 0.0)
+    cols = np.maximum(st.col[pcs.element], 0)
+    q = np.where(on, d * x0[cols], pe[pcs.threshold] - d * v0)
+    M = np.where(on[:, None], d[:, None] * X[cols], -d[:, None] * V)
     M[np.arange(K), np.arange(K)] += np.where(on, 0.0, R)
+    for k in np.flatnonzero(~on).tolist():  # an on piece's current excludes its siblings'
+        m = on_of.get(int(pcs.element[k]))
+        if m is not None:
+            M[m, k] -= d[m] * d[k]
     return q, M
 
 
@@ -353,7 +369,7 @@ def find_states(net: Netlist, p: np.ndarray | None = None, start: Netlist | None
 
 def _consistent(net: Netlist, pcs: Pieces, pe: np.ndarray) -> bool:
     st = structure(net)
-    b = _Base(net, pe)
+    b = BaseSystem(net, pe)
     if not b.ok:
         return False
     from calcdoc.mna.batch import derive
@@ -406,6 +422,6 @@ def _every(net: Netlist, pcs: Pieces, pe: np.ndarray, pivots: int, ray: np.ndarr
 
 
 __all__ = [
-    "Found", "Pieces", "allowance", "find_states", "holds", "margins", "pieces", "searched",
-    "with_states",
+    "BaseSystem", "Found", "Pieces", "allowance", "complementarity", "find_states", "holds",
+    "margins", "pieces", "searched", "with_states",
 ]  # fmt: skip

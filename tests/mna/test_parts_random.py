@@ -198,3 +198,43 @@ def test_every_device_passes_its_own_test(seed, diodes, opamps):
             assert v <= d["vf"] + scale
             assert d["vbr"] is None or v >= -d["vbr"] - scale
         assert all(t["holds"] for t in doc["device_states"][d["name"]]["tests"])
+
+
+@settings(deadline=None, max_examples=25)
+@given(st.integers(0, 2**32 - 1), st.integers(1, 3), st.integers(0, 1))
+def test_complementarity_problem_is_exact_from_every_base(seed, diodes, opamps):
+    # For the solution found, the free variables u of any base (an off piece's
+    # current z, an on piece's slack w) and the paired ones t must satisfy
+    # t = q + M·u exactly as formed from that base: the problem is the same
+    # whatever states the search starts from.
+    import itertools as it
+
+    from calcdoc.mna.stamps import structure
+    from calcdoc.mna.states import BaseSystem, complementarity, pieces, with_states
+
+    els, _ = random_circuit(seed, diodes, opamps)
+    case = calcdoc.solve(calcdoc.loads(parts_text(els))).cases[0]
+    net, br = case.netlist, case.branches
+    st_ = structure(net)
+    pcs = pieces(st_)
+    pe = st_.extended()
+    d = pcs.direction
+    R = np.where(pcs.slope >= 0, pe[np.maximum(pcs.slope, 0)], 0.0)
+    v, i = br.voltage[pcs.element], br.current[pcs.element]
+    conducting = pcs.conducting(net)
+    z = np.where(conducting, d * i, 0.0)  # each piece's own current
+    w = pe[pcs.threshold] - d * v + R * z  # each piece's slack
+    checked = 0
+    for on in it.product((False, True), repeat=len(pcs)):
+        on = np.array(on, dtype=bool)
+        if any(on[pcs.element == j].sum() > 1 for j in set(pcs.element.tolist())):
+            continue  # one piece on per device
+        base = BaseSystem(with_states(net, pcs.states(on)), pe)
+        if not base.ok:
+            continue
+        q, M = complementarity(base, pcs, on)
+        u, t = np.where(on, w, z), np.where(on, z, w)
+        scale = 1 + np.abs(q).max() + np.abs(M).max() * np.abs(u).max()
+        assert np.abs(q + M @ u - t).max() <= 1e-9 * scale
+        checked += 1
+    assert checked
