@@ -256,6 +256,7 @@ def _base(
             return b, on
     on = np.zeros(len(pcs), dtype=bool)
     best = BaseSystem(with_states(net, pcs.states(on)), pe)
+    _fault_beyond_devices(best, pcs)
     rank = best.rank()
     for k in range(len(pcs)):
         if np.any(on & (pcs.element == pcs.element[k])):
@@ -269,6 +270,21 @@ def _base(
         if rb > rank:
             on, best, rank = trial, b, rb
     raise _NoBase
+
+
+def _fault_beyond_devices(base: BaseSystem, pcs: Pieces) -> None:
+    """Raise the structural fault of the all-off circuit when no searched device is
+    part of it (a node behind capacitors alone): no state of theirs could mend it."""
+    from calcdoc.mna.diagnose import diagnose
+
+    st = base.st
+    rows, cols, vals, _ = float_system(st, base.pe)
+    try:
+        diagnose(st, (rows, cols, vals))
+    except SingularCircuitError as exc:
+        devices = {st.net.names[j] for j in pcs.element.tolist()}
+        if not devices & set(exc.culprits):
+            raise
 
 
 class _NoBase(Exception):

@@ -26,6 +26,20 @@ def test_node_joined_only_through_capacitors():
     assert "its DC voltage is not determined" in e.detail
 
 
+def test_node_behind_capacitors_in_a_circuit_with_diodes():
+    # no diode state could determine x: the refusal names the node, not the diode
+    e = refusal([
+        ("V1", "voltage_source", ("in", "gnd"), {"value": "5 V"}),
+        ("R1", "resistor", ("in", "a"), {"value": "1 kohm"}),
+        ("D1", "diode", ("a", "gnd"), {"forward_voltage": "0.7 V"}),
+        ("C1", "capacitor", ("a", "x"), {"value": "1 uF"}),
+        ("C2", "capacitor", ("x", "gnd"), {"value": "1 uF"}),
+    ])  # fmt: skip
+    assert e.condition == "undetermined node voltage"
+    assert "x" in e.culprits and "D1" not in e.culprits
+    assert "its DC voltage is not determined" in e.detail
+
+
 def test_node_behind_an_open_contact():
     e = refusal([
         ("V1", "voltage_source", ("in", "gnd"), {"value": "5 V"}),
