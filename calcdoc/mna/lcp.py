@@ -7,8 +7,9 @@ Given a K×K matrix M and a vector q, find z and w with::
 Lemke's method (C. E. Lemke, "Bimatrix equilibrium points and
 mathematical programming", Management Science 11, 1965; the textbook
 account is R. W. Cottle, J.-S. Pang and R. E. Stone, *The Linear
-Complementarity Problem*, Academic Press 1992, section 4.4) adds an
-artificial variable z₀ with the covering vector d = (1, …, 1)::
+Complementarity Problem*, Academic Press 1992, chapter 4; both cited from
+memory) adds an artificial variable z₀ with the covering vector
+d = (1, …, 1)::
 
     w = q + M·z + d·z₀
 
@@ -22,21 +23,26 @@ secondary ray).
 basis; with the lexicographic minimum-ratio test used here every basis is
 nondegenerate in the lexicographic sense, so each almost complementary
 basis has at most two neighbours on the path and the path never returns
-to a basis it has visited (Cottle, Pang and Stone, theorem 4.4.4).  There
-are finitely many bases (at most C(2K+1, K)), so the method stops after
-finitely many pivots.  In practice it takes about K pivots or fewer.
+to a basis it has visited.  There are finitely many bases (at most
+C(2K+1, K)), so the method stops after finitely many pivots.  In practice
+it takes about as many pivots as there are pieces that change state.
+(Floating point could in principle upset the lexicographic test, so a cap
+of ``max(1000, 50·K)`` pivots ends the loop as a ray; it has not been
+reached in any test.)
 
 **What the ending means.**  Ending at a solution needs nothing further.
 Ending on a secondary ray proves that no solution exists when M is
-*copositive-plus* (theorem 4.4.13): every positive semidefinite M is,
-which covers every circuit of resistors, sources and diodes with
-nonnegative slope resistances (the port impedance of a passive reciprocal
-network is positive semidefinite).  When M is a P-matrix (positive slope
-resistances, no controlled sources), the solution exists and is unique
-for every q (theorem 3.3.7).  With controlled sources and op-amps M has
-neither property in general; a ray is then not a proof, and the caller
-falls back on trying every state combination (:func:`enumerate_solutions`),
-which is exhaustive for up to ``ENUMERATION_LIMIT`` pieces.
+*copositive-plus*, which holds whenever xᵀ·M·x ≥ 0 for every x.  For a
+circuit of resistors, independent sources and diodes whose all-blocking
+network is solvable, M is the port impedance of a passive reciprocal
+network, doubled up for the two directions, plus the slope resistances:
+positive semidefinite; other starting states give principal pivot
+transforms of it, which keep xᵀ·M·x ≥ 0.  With positive slope resistances
+M is moreover a P-matrix and the solution is unique.  With controlled
+sources and op-amps M has neither property in general; a ray is then not
+a proof, and the caller falls back on trying every state combination
+(:func:`enumerate_solutions`), which is exhaustive for up to
+``ENUMERATION_LIMIT`` pieces.
 """
 
 from __future__ import annotations
