@@ -117,12 +117,18 @@ def signed(x: float, sig: int = 4) -> str:
     return text if text.startswith(MINUS) or text == "0" else "+" + text
 
 
-UNITS = {"voltage": "V", "current": "A", "power": "W", "node voltage": "V", "node": "V"}
+UNITS = {
+    "voltage": "V", "current": "A", "power": "W", "node voltage": "V", "node": "V",
+    "reverse voltage": "V", "reverse_voltage": "V", "output voltage": "V", "voltage across": "V",
+}  # fmt: skip
 
 
 def value_text(unit: str, value: float, sig: int = 4) -> str:
-    """A value with its unit (``"Ω"``); a ratio (``V/V``, ``A/A``) printed plain with it."""
-    if unit in ("V/V", "A/A", ""):
+    """A value with its unit (``"Ω"``); a ratio (``V/V``, ``A/A``) printed plain with it;
+    ``—`` for a type without a value (unit ``""``)."""
+    if not unit:
+        return "—"
+    if unit in ("V/V", "A/A"):
         return f"{number(value, sig)} {unit}"
     return eng(value, unit, sig)
 

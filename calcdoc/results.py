@@ -300,6 +300,8 @@ class Branches:
     exact_current: tuple[Fraction, ...] | None = None
     exact_law_voltage: tuple[Fraction, ...] | None = None
     law_fixes_voltage: np.ndarray | None = None
+    energy: np.ndarray | None = None
+    """Stored energy (J) of elements whose type stores it (½CV², ½LI²); 0 elsewhere."""
 
 
 # --------------------------------------------------------------------------
@@ -404,6 +406,72 @@ class Check:
 
 
 # --------------------------------------------------------------------------
+# states of piecewise-linear devices
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class StateTest:
+    """One condition that confirms a device's state: a result against a threshold.
+
+    ``text`` reads like ``I ≥ 0`` or ``V ≤ Vf``; ``value`` and ``limit`` are
+    in A or V; ``margin`` is how far inside the condition the value lies
+    (negative when it does not hold); ``holds`` allows for rounding of a
+    floating-point solution (an exact solution is compared exactly).
+    """
+
+    text: str
+    quantity: str
+    bound: str
+    value: float
+    limit: float
+    margin: float
+    holds: bool
+
+
+@dataclass(frozen=True)
+class DeviceState:
+    """A device's state, its linear model in that state, and the tests that confirm it."""
+
+    element: str
+    state: str
+    law: str
+    tests: tuple[StateTest, ...]
+
+    @property
+    def holds(self) -> bool:
+        return all(t.holds for t in self.tests)
+
+
+@dataclass(frozen=True)
+class StateSearch:
+    """How the states of the piecewise-linear devices were found, and their proof.
+
+    Attributes
+    ----------
+    method : str
+        ``"complementary pivoting (Lemke)"`` or ``"every combination tried"``.
+    iterations : int
+        Pivots of the search (0: the starting states were already consistent).
+    pieces : int
+        Conducting pieces searched (a diode has one, a zener two).
+    devices : tuple of DeviceState
+        Every searched device with the tests of its state.
+    note : str
+    """
+
+    method: str
+    iterations: int
+    pieces: int
+    devices: tuple[DeviceState, ...]
+    note: str = ""
+
+    @property
+    def holds(self) -> bool:
+        return all(d.holds for d in self.devices)
+
+
+# --------------------------------------------------------------------------
 # a case and the whole project
 # --------------------------------------------------------------------------
 
@@ -424,6 +492,8 @@ class CaseResult:
     checks: tuple[Check, ...]
     symbol_values: Mapping[str, Number] = field(default_factory=dict)
     """Every symbol of the equations (element values and further keys) with its value."""
+    states: StateSearch | None = None
+    """The state search and its proof, when the circuit has piecewise-linear devices."""
 
     @property
     def failed(self) -> tuple[Check, ...]:

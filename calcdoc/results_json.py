@@ -13,7 +13,8 @@ from typing import Any
 import numpy as np
 
 from calcdoc import __version__
-from calcdoc.results import CaseResult, Results
+from calcdoc.model.elements import KINDS
+from calcdoc.results import CaseResult, Results, StateSearch
 
 
 def _f(x: Any) -> float | None:
@@ -55,6 +56,12 @@ def case_document(r: CaseResult) -> dict[str, Any]:
             net.names, floats(br.voltage), floats(br.current), floats(br.power), strict=True
         )
     }
+    for j, name in enumerate(net.names):  # the element table says who has a state or energy
+        kind = KINDS[net.types[j]]
+        if kind.states:
+            elements[name]["state"] = net.state(j)
+        if kind.energy is not None and br.energy is not None:
+            elements[name]["energy"] = float(br.energy[j])
     kcl = dict(zip(net.nodes[1:], floats(r.kcl[1:]), strict=True))
     if r.kvl.listed:
         kvl = [{"loop": list(lp.elements), "sum": _f(lp.sum)} for lp in r.kvl.loops]
@@ -96,7 +103,37 @@ def case_document(r: CaseResult) -> dict[str, Any]:
             "kcl_max": float(np.max(np.abs(r.kcl))) if len(r.kcl) else 0.0,
             "kvl_max": r.kvl.max_abs_sum,
             "warnings": list(r.solution.warnings),
+            **({"state_search": state_search(r.states)} if r.states is not None else {}),
         },
+        **({"device_states": device_states(r.states)} if r.states is not None else {}),
+    }
+
+
+def state_search(s: StateSearch) -> dict[str, Any]:
+    """How the device states were found (the ``solver`` block's ``state_search``)."""
+    out = {"method": s.method, "iterations": s.iterations, "pieces": s.pieces}
+    return out | ({"note": s.note} if s.note else {})
+
+
+def device_states(s: StateSearch) -> dict[str, Any]:
+    """Each searched device's state, its linear model and the tests that confirm it."""
+    return {
+        d.element: {
+            "state": d.state,
+            "law": d.law,
+            "tests": [
+                {
+                    "test": t.text,
+                    "quantity": t.quantity,
+                    "value": t.value,
+                    "limit": t.limit,
+                    "margin": t.margin,
+                    "holds": t.holds,
+                }
+                for t in d.tests
+            ],  # fmt: skip
+        }
+        for d in s.devices
     }
 
 

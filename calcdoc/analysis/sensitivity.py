@@ -113,7 +113,7 @@ def sensitivities(project, case_result, outputs=None, closed=None) -> tuple[Sens
             import sympy
 
             expr = closed.expressions[closed.unknowns.index(f"V({net.nodes[idx]})")]
-            subs = {sympy.Symbol(nm): float(v) for nm, v in zip(net.names, vals, strict=True)}
+            subs = {sympy.Symbol(nm): float(v) for nm, v in case_result.symbol_values.items()}
             dydv = np.array(
                 [float(sympy.diff(expr, sympy.Symbol(nm)).subs(subs)) for nm in net.names]
             )

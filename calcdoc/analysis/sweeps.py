@@ -5,6 +5,11 @@ Each point is a full solution (batched).  Where an output's design limit
 two points, the crossing is located by Brent's method on the solved
 circuit (scipy.optimize.brentq), giving the design margin in component
 terms: "R4 may rise to 372.1 Ω before V(out) exceeds 4.5 V".
+
+Every point is solved in its own device states
+(:class:`~calcdoc.mna.stated.StateSolver`); the result lists, per point,
+the pivots the state search took and the devices in another state than
+in the nominal case.
 """
 
 from __future__ import annotations
@@ -13,7 +18,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from calcdoc.mna.batch import patterns, solve_batch
+from calcdoc.mna.batch import patterns
+from calcdoc.mna.stated import StateSolver
 from calcdoc.model.load import parse_output
 from calcdoc.model.quantities import Quantity
 from calcdoc.model.values import element_values
@@ -41,6 +47,8 @@ class SweepResult:
     ]  # output -> (check id, limit) drawn on the plot
     crossings: tuple[Crossing, ...]
     unit: str = ""  # the target's unit symbol ("" when dimensionless)
+    iterations: tuple[int, ...] = ()  # state-search pivots per point (empty: no diodes)
+    states: tuple[tuple[tuple[str, str], ...], ...] = ()  # per point: devices in another state
 
     def target_text(self, value: float) -> str:
         """A value of the swept quantity for people: with its unit, or in per cent."""
@@ -54,6 +62,8 @@ class SweepResult:
             "outputs": {k: list(v) for k, v in self.series.items()},
             "crossings": [{"output": c.output, "check": c.check, "limit": c.limit, "at": c.at,
                            "direction": c.direction} for c in self.crossings],
+            **({"iterations": list(self.iterations),
+                "state_changes": [dict(x) for x in self.states]} if self.iterations else {}),
         }  # fmt: skip
 
 
@@ -85,13 +95,15 @@ def sweep_result(project, nominal, sweep) -> SweepResult:
 
     net = nominal.netlist
     pat = patterns(net)
+    solver = StateSolver(net)
     a, b = float(sweep.start.magnitude), float(sweep.stop.magnitude)
     pts = (
         np.geomspace(a, b, sweep.points)
         if sweep.scale == "log"
         else np.linspace(a, b, sweep.points)
     )
-    batch = solve_batch(pat, pat.main_to_p(_value_rows(project, sweep, pts)))
+    stated = solver.solve(pat.main_to_p(_value_rows(project, sweep, pts)))
+    batch = stated.batch
     series, limits, crossings = {}, {}, []
     for output in sweep.outputs:
         y = _series(batch, net, output)
@@ -108,11 +120,8 @@ def sweep_result(project, nominal, sweep) -> SweepResult:
             mag = q != "node"
 
             def g(t: float, c=c, mag=mag, output=output) -> float:
-                yy = _series(
-                    solve_batch(pat, pat.main_to_p(_value_rows(project, sweep, np.array([t])))),
-                    net,
-                    output,
-                )[0]
+                rows = pat.main_to_p(_value_rows(project, sweep, np.array([t])))
+                yy = _series(solver.solve(rows).batch, net, output)[0]
                 return (abs(yy) if mag else yy) - c.limit
 
             vals = (np.abs(y) if mag else y) - c.limit
@@ -137,6 +146,11 @@ def sweep_result(project, nominal, sweep) -> SweepResult:
         kind, unit = "parameter", SI_SYMBOL.get(sweep.start.dimension, "")
     name = sweep.name or f"{sweep.target} sweep"
     points = tuple(pts.tolist())
+    iterations = states = ()
+    if len(solver.pcs):
+        iterations = tuple(int(k) for k in stated.iterations)
+        states = tuple(tuple(stated.changes(k, net.names).items()) for k in range(len(pts)))
     return SweepResult(
-        name, sweep.target, kind, points, sweep.scale, series, limits, tuple(crossings), unit
-    )
+        name, sweep.target, kind, points, sweep.scale, series, limits, tuple(crossings), unit,
+        iterations, states,
+    )  # fmt: skip

@@ -33,22 +33,31 @@
     Root-sum-square of the first-order deviations (direct differentiation).
 
 Every design check is evaluated again at the worst value found.
+
+Diodes: every vertex, sample and search point is solved in its own device
+states (:class:`~calcdoc.mna.stated.StateSolver`).  Where any solved set
+changes a device's state, the vertex proof does not apply (the solution is
+then only piecewise a ratio of affine functions) and the extremes are
+found by the local search; an extreme found where a device is in another
+state than in the case names that device and its state.
 """
 
 from __future__ import annotations
 
 import itertools
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
 from calcdoc.analysis.variation import EXACT_VERTEX_LIMIT, Toleranced, Variation, toleranced
-from calcdoc.mna.batch import Batch, factor, patterns, solve_batch, tangents
+from calcdoc.mna.batch import Batch, factor, patterns, tangents
+from calcdoc.mna.stated import StateSolver
 from calcdoc.results import Check
-from calcdoc.verify.checks import RATINGS
+from calcdoc.verify.checks import RATINGS, range_check
 
 QUANTITIES = ("voltage", "current", "power")
 MC_CHUNK = 20_000
+LISTED_SETS = 4096  # value sets up to which each one's state-search pivots are listed
 
 
 @dataclass(frozen=True)
@@ -73,6 +82,9 @@ class Extreme:
     how: str = ""
     min_where: str = "vertex"
     max_where: str = "vertex"
+    min_states: tuple[tuple[str, str], ...] = ()
+    max_states: tuple[tuple[str, str], ...] = ()
+    """Devices in another state than in the case where the extreme was found."""
 
 
 @dataclass(frozen=True)
@@ -94,6 +106,14 @@ class ToleranceResult:
     elements: dict[str, dict[str, Extreme]]
     checks: tuple[Check, ...]
     histogram: tuple[str, tuple[float, ...], tuple[int, ...]] | None = None
+    across: dict[str, Extreme] = field(default_factory=dict)
+    state_changes: int = 0
+    """Solved value sets in which a device is in another state than in the case."""
+    state_iterations: int = 0
+    """Pivots of every state search the analysis ran (its local searches included)."""
+    set_iterations: tuple[int, ...] = ()
+    """Pivots each solved value set (vertex or sample) needed, in order; 0 where the
+    case's states held.  Empty without diodes, or beyond ``LISTED_SETS`` sets."""
 
     def to_json(self) -> dict:
         names = [q.name for q in self.quantities]
@@ -107,6 +127,10 @@ class ToleranceResult:
             }  # fmt: skip
             if x.mean is not None:
                 d.update(mean=x.mean, std=x.std, p01=x.p01, p99=x.p99)
+            if x.min_states:
+                d["min_states"] = dict(x.min_states)
+            if x.max_states:
+                d["max_states"] = dict(x.max_states)
             return d
 
         return {
@@ -119,6 +143,12 @@ class ToleranceResult:
             ],
             "nodes": {n: rng(x) for n, x in self.nodes.items()},
             "elements": {e: {q: rng(x) for q, x in d.items()} for e, d in self.elements.items()},
+            **({"across": {n: rng(x) for n, x in self.across.items()}} if self.across else {}),
+            "states": {
+                "changed": self.state_changes,
+                "iterations": self.state_iterations,
+                **({"per_set": list(self.set_iterations)} if self.set_iterations else {}),
+            },
             "checks": [
                 {
                     "id": c.id,
@@ -138,10 +168,13 @@ class ToleranceResult:
 # --------------------------------------------------------------------------
 
 
-def _keys(net) -> list[tuple[str, int]]:
-    return [("node", k) for k in range(1, len(net.nodes))] + [
-        (q, j) for j in range(len(net.names)) for q in QUANTITIES
-    ]
+def _keys(net, project=None) -> list[tuple[str, object]]:
+    keys: list[tuple[str, object]] = [("node", k) for k in range(1, len(net.nodes))]
+    keys += [(q, j) for j in range(len(net.names)) for q in QUANTITIES]
+    if project is not None:
+        index = {n: i for i, n in enumerate(net.nodes)}
+        keys += [("across", (index[w.nodes[0]], index[w.nodes[1]])) for w in project.limits.across]
+    return keys
 
 
 def _matrix(batch: Batch, keys) -> np.ndarray:
@@ -216,8 +249,38 @@ def _det_signs_agree(st, P: np.ndarray) -> bool:
 # --------------------------------------------------------------------------
 
 
-def _gradients(st, var: Variation, delta: np.ndarray, keys) -> np.ndarray:
-    """d(output)/d(relative deviation) at one point: (q, outputs)."""
+class _Runs:
+    """Solves value sets, each in its own device states, and keeps count of state changes."""
+
+    def __init__(self, net) -> None:
+        self.solver = StateSolver(net)
+        self.st = self.solver.st
+        self.names = net.names
+        self.changed = 0
+        self.per_set: list[int] = []
+        self.iterations = 0
+
+    def batch(self, P: np.ndarray, count: bool = False):
+        """(Batch, StatedBatch) of parameter rows ``P``; ``count``: the rows are
+        the analysis's own value sets (vertices, samples), counted in the results."""
+        sb = self.solver.solve(P)
+        self.iterations += int(sb.iterations.sum())
+        if count:
+            self.changed += int(sb.changed.sum())
+            self.per_set += sb.iterations.tolist()
+        return sb.batch, sb
+
+    def changes(self, sb, k: int) -> tuple[tuple[str, str], ...]:
+        return tuple(sb.changes(k, self.names).items())
+
+    def changes_at(self, p: np.ndarray) -> tuple[tuple[str, str], ...]:
+        _, sb = self.batch(p[None])
+        return self.changes(sb, 0)
+
+
+def _gradients(runs: _Runs, var: Variation, delta: np.ndarray, keys) -> np.ndarray:
+    """d(output)/d(relative deviation) at one point, in its device states: (q, outputs)."""
+    st = runs.st
     p = var.params(st, delta[None])[0]
     q = len(delta)
     h = 1e-6
@@ -226,20 +289,21 @@ def _gradients(st, var: Variation, delta: np.ndarray, keys) -> np.ndarray:
     dirs = (var.params(st, base + h * np.eye(q)) - var.params(st, base - h * np.eye(q))) / (2 * h)
     from calcdoc.mna.batch import solve_x
 
-    x = solve_x(st, p[None])[0]
-    t = tangents(st, p, x, dirs)
+    here = runs.solver.structure_at(p)
+    x = solve_x(here, p[None])[0]
+    t = tangents(here, p, x, dirs)
     return _matrix(t, keys)
 
 
-def _local_search(st, var: Variation, keys, k: int, start: np.ndarray, sign: float,
+def _local_search(runs: _Runs, var: Variation, keys, k: int, start: np.ndarray, sign: float,
                   lo: np.ndarray, hi: np.ndarray) -> tuple[float, np.ndarray]:  # fmt: skip
     """Maximise sign·output[k] over the box from ``start`` (L-BFGS-B)."""
     from scipy.optimize import minimize
 
     def f(delta: np.ndarray):
-        b = solve_batch(st, var.params(st, delta[None]))
+        b, _ = runs.batch(var.params(runs.st, delta[None]))
         y = _matrix(b, [keys[k]])[0, 0]
-        g = _gradients(st, var, delta, [keys[k]])[:, 0]
+        g = _gradients(runs, var, delta, [keys[k]])[:, 0]
         return -sign * y, -sign * g
 
     res = minimize(f, start, jac=True, method="L-BFGS-B", bounds=list(zip(lo, hi, strict=True)),
@@ -247,15 +311,16 @@ def _local_search(st, var: Variation, keys, k: int, start: np.ndarray, sign: flo
     return float(-sign * res.fun), np.clip(res.x, lo, hi)
 
 
-def _extremes(st, var: Variation, keys, lo, hi, nominal_row):
+def _extremes(runs: _Runs, var: Variation, keys, lo, hi, nominal_row):
     """Vertex extremes of every output, proved or improved by local search."""
+    st = runs.st
     q = len(lo)
     if q <= EXACT_VERTEX_LIMIT:
         delta = _vertices(q, lo, hi)
         note = f"all {len(delta)} vertices of the tolerance box solved"
         complete = True
     else:
-        g = _gradients(st, var, np.zeros(q), keys)  # (q, outputs)
+        g = _gradients(runs, var, np.zeros(q), keys)  # (q, outputs)
         picks = {tuple(np.where(g[:, o] >= 0, hi, lo)) for o in range(g.shape[1])}
         picks |= {tuple(np.where(g[:, o] >= 0, lo, hi)) for o in range(g.shape[1])}
         delta = np.array(sorted(picks))
@@ -264,11 +329,17 @@ def _extremes(st, var: Variation, keys, lo, hi, nominal_row):
             f"({q} toleranced quantities: too many to solve all {2**q} vertices)"
         )
         complete = False
-    batch = solve_batch(st, var.params(st, delta))
+    batch, stated = runs.batch(var.params(st, delta), count=True)
     Y = _matrix(batch, keys)
-    proved_kind = complete and _rank_one_elements(st, var) and _det_signs_agree(
+    steady = not stated.changed.any()  # every vertex in the case's device states
+    proved_kind = steady and complete and _rank_one_elements(st, var) and _det_signs_agree(
         st, var.params(st, delta)
     )  # fmt: skip
+    if not steady:
+        note += (
+            f"; a device changes state at {int(stated.changed.sum())} of them, so the "
+            "extremes are not proved at a vertex"
+        )
     result = {}
     grads_at: dict[tuple, np.ndarray] = {}
     searched = 0
@@ -278,29 +349,32 @@ def _extremes(st, var: Variation, keys, lo, hi, nominal_row):
         for which, sign in (("max", 1.0), ("min", -1.0)):
             v = int(np.argmax(sign * col))
             best, at, where = float(col[v]), delta[v], "vertex"
-            proved = proved_kind and key[0] in ("node", "voltage", "current")
+            changes = runs.changes(stated, v)
+            proved = proved_kind and key[0] in ("node", "voltage", "current", "across")
             if not proved:
                 tkey = tuple(at)
                 if tkey not in grads_at:
-                    grads_at[tkey] = _gradients(st, var, at, keys)
+                    grads_at[tkey] = _gradients(runs, var, at, keys)
                 g = sign * grads_at[tkey][:, o]
                 inward = ((at >= hi) & (g < 0)) | ((at <= lo) & (g > 0))
                 if not complete:  # hop between vertices while a flip improves
-                    at, best = _vertex_climb(st, var, keys, o, at, best, sign, lo, hi)
+                    at, best = _vertex_climb(runs, var, keys, o, at, best, sign, lo, hi)
+                    changes = runs.changes_at(var.params(st, np.asarray(at)[None])[0])
                 if inward.any() and np.any(hi > lo):
                     searched += 1
-                    val, pt = _local_search(st, var, keys, o, at, sign, lo, hi)
+                    val, pt = _local_search(runs, var, keys, o, at, sign, lo, hi)
                     if sign * (val - best) > 1e-12 * max(abs(best), 1e-300):
                         best, at = val, pt
                         where = "inside" if np.any((pt > lo) & (pt < hi)) else "vertex"
-            out[which] = (best, tuple(float(d) for d in at), where, proved)
+                        changes = runs.changes_at(var.params(st, pt[None])[0])
+            out[which] = (best, tuple(float(d) for d in at), where, proved, changes)
         result[key] = out
     if searched:
         note += f"; {searched} extremes improved by a bounded local search from the best vertex"
     return result, note, len(delta), proved_kind
 
 
-def _vertex_climb(st, var, keys, o, at, best, sign, lo, hi):
+def _vertex_climb(runs: _Runs, var, keys, o, at, best, sign, lo, hi):
     """Flip one coordinate at a time while the output improves (vertices only)."""
     at = np.array(at, dtype=float)
     improved = True
@@ -309,7 +383,7 @@ def _vertex_climb(st, var, keys, o, at, best, sign, lo, hi):
         flips = np.tile(at, (len(at), 1))
         idx = np.arange(len(at))
         flips[idx, idx] = np.where(at[idx] >= hi[idx], lo[idx], hi[idx])
-        b = solve_batch(st, var.params(st, flips))
+        b, _ = runs.batch(var.params(runs.st, flips))
         vals = _matrix(b, [keys[o]])[:, 0]
         k = int(np.argmax(sign * vals))
         if sign * (vals[k] - best) > 1e-15 * max(abs(best), 1e-300):
@@ -322,22 +396,43 @@ def _vertex_climb(st, var, keys, o, at, best, sign, lo, hi):
 # --------------------------------------------------------------------------
 
 
-def _worst_checks(case_checks, net, nodes: dict, elements: dict, label: str) -> tuple[Check, ...]:
+def _worst_checks(project, case_checks, nodes: dict, elements: dict, across: dict,
+                  label: str) -> tuple[Check, ...]:  # fmt: skip
     from calcdoc.verify.checks import window_check
 
+    windows = {w.name: w for w in project.limits.across}
     out = []
     for c in case_checks:
+        subject, _, key = c.id.rpartition(".")
         if c.id.startswith("nodes."):
             ex = nodes[c.subject]
             v = ex.min if c.bound == "min" else ex.max
             w = window_check(c.id, c.subject, c.quantity, v, c.limit, c.bound, c.basis)
-        else:
-            rating = RATINGS[c.id.rsplit(".", 1)[1]]
+            at = ex.min_states if c.bound == "min" else ex.max_states
+        elif c.id.startswith("across."):
+            win = windows[c.subject]
+            ex = across[c.subject]
+            w = min((range_check(c.id, c.subject, c.quantity, v, win.min, win.max, c.basis)
+                     for v in (ex.min, ex.max)), key=lambda ch: ch.margin)  # fmt: skip
+            at = ex.min_states if w.value == ex.min else ex.max_states
+        elif key in RATINGS:
+            rating = RATINGS[key]
             ex = elements[c.subject][rating.of]
-            v = float(max(rating.measure(np.float64(ex.min)), rating.measure(np.float64(ex.max))))
+            lo_m, hi_m = rating.measure(np.float64(ex.min)), rating.measure(np.float64(ex.max))
+            v = float(max(lo_m, hi_m))
             util = v / c.limit if c.limit > 0 else float("inf")
             w = replace(c, value=v, margin=c.limit - v, utilization=util)
-        out.append(replace(w, basis=f"{c.basis}; worst of {label}"))
+            at = ex.max_states if hi_m >= lo_m else ex.min_states
+        else:  # a window key of the element's type (an op-amp's output range)
+            e = project.element(subject)
+            wk = {k.name: k for k in e.kind.windows}[key]
+            lo, hi = next((a, b) for k, a, b in e.windows if k == key)
+            ex = elements[subject][wk.of]
+            w = min((range_check(c.id, subject, c.quantity, v, lo, hi, c.basis)
+                     for v in (ex.min, ex.max)), key=lambda ch: ch.margin)  # fmt: skip
+            at = ex.min_states if w.value == ex.min else ex.max_states
+        where = "; there " + ", ".join(f"{n} {st}" for n, st in at) if at else ""
+        out.append(replace(w, basis=f"{c.basis}; worst of {label}{where}"))
     return tuple(out)
 
 
@@ -346,16 +441,20 @@ def _worst_checks(case_checks, net, nodes: dict, elements: dict, label: str) -> 
 # --------------------------------------------------------------------------
 
 
-def _store(net, keys, extremes: dict[tuple[str, int], Extreme]):
+def _store(net, keys, extremes: dict, project):
     nodes: dict[str, Extreme] = {}
     elements: dict[str, dict[str, Extreme]] = {}
+    across: dict[str, Extreme] = {}
+    windows = iter(project.limits.across)
     for key in keys:
         kind, idx = key
         if kind == "node":
             nodes[net.nodes[idx]] = extremes[key]
+        elif kind == "across":
+            across[next(windows).name] = extremes[key]
         else:
             elements.setdefault(net.names[idx], {})[kind] = extremes[key]
-    return nodes, elements
+    return nodes, elements, across
 
 
 def _truncated_normal(rng, shape, limit: float = 3.0) -> np.ndarray:
@@ -375,26 +474,28 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
         return None
     net = case_result.netlist
     st = patterns(net)
+    runs = _Runs(net)
     var = Variation(project, case_result.case, quantities, case_result.values)
     lo, hi = var.bounds()
     q = len(quantities)
-    keys = _keys(net)
+    keys = _keys(net, project)
     nominal_p = var.params(st, np.zeros((1, q)))
-    nom = _matrix(solve_batch(st, nominal_p), keys)[0]
+    nom = _matrix(runs.batch(nominal_p)[0], keys)[0]
     hist = None
     if a.tolerance == "extreme":
-        found, note, solved, _ = _extremes(st, var, keys, lo, hi, nom)
+        found, note, solved, _ = _extremes(runs, var, keys, lo, hi, nom)
         ext = {}
         for o, key in enumerate(keys):
             hi_v, lo_v = found[key]["max"], found[key]["min"]
             how = "vertices, proved" if hi_v[3] else "vertices and local search"
             ext[key] = Extreme(float(nom[o]), lo_v[0], hi_v[0], lo_v[1], hi_v[1], how=how,
-                               min_where=lo_v[2], max_where=hi_v[2])  # fmt: skip
+                               min_where=lo_v[2], max_where=hi_v[2], min_states=lo_v[4],
+                               max_states=hi_v[4])  # fmt: skip
         label = "the tolerance box"
     elif a.tolerance == "montecarlo":
         rng = np.random.default_rng(a.seed)
         K = a.samples
-        Ys, deltas = [], []
+        Ys, deltas, stated = [], [], []
         for start in range(0, K, MC_CHUNK):
             k = min(MC_CHUNK, K - start)
             if a.distribution == "uniform":
@@ -402,10 +503,16 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
             else:  # normal, tolerance = 3 sigma, truncated at the tolerance limits
                 zs = _truncated_normal(rng, (k, q))
                 d = np.where(zs >= 0, zs * hi / 3, zs * (-lo) / 3)
-            Ys.append(_matrix(solve_batch(st, var.params(st, d)), keys))
+            b, sb = runs.batch(var.params(st, d), count=True)
+            Ys.append(_matrix(b, keys))
             deltas.append(d)
+            stated.append(sb)
         Y = np.concatenate(Ys)
         delta = np.concatenate(deltas)
+
+        def changes(k: int) -> tuple[tuple[str, str], ...]:
+            return runs.changes(stated[k // MC_CHUNK], k % MC_CHUNK)
+
         what = (
             "normal, tolerance = 3 σ, truncated at the tolerance limits"
             if a.distribution == "normal"
@@ -421,17 +528,21 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
                 tuple(delta[kmin].tolist()), tuple(delta[kmax].tolist()),
                 float(col.mean()), float(col.std(ddof=1)) if K > 1 else 0.0,
                 float(np.percentile(col, 1)), float(np.percentile(col, 99)),
-                "samples", "sample", "sample",
+                "samples", "sample", "sample", changes(kmin), changes(kmax),
             )  # fmt: skip
         solved = K
         label = f"{K} samples (sample extremes)"
-        varying = [k for k in range(1, len(net.nodes)) if np.ptp(Y[:, keys.index(("node", k))]) > 0]
+
+        def spread(col: np.ndarray) -> bool:  # more than rounding (an ideal short's node is not)
+            return float(np.ptp(col)) > 1e-9 * max(float(np.max(np.abs(col))), 1e-300)
+
+        varying = [k for k in range(1, len(net.nodes)) if spread(Y[:, keys.index(("node", k))])]
         if varying:
             k = varying[0]
             counts, edges = np.histogram(Y[:, keys.index(("node", k))], bins=24)
             hist = (f"V({net.nodes[k]})", tuple(edges.tolist()), tuple(int(c) for c in counts))
     else:  # rss
-        G = _gradients(st, var, np.zeros(q), keys)  # (q, outputs): per unit relative deviation
+        G = _gradients(runs, var, np.zeros(q), keys)  # (q, outputs): per unit relative deviation
         ext = {}
         for o, key in enumerate(keys):
             slope = G[:, o]
@@ -448,11 +559,18 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
         note = "root-sum-square of first-order deviations (direct differentiation of the solution)"
         solved = 1
         label = "the RSS band"
-    nodes, elements = _store(net, keys, ext)
-    checks = _worst_checks(case_result.checks, net, nodes, elements, label)
+    nodes, elements, across = _store(net, keys, ext, project)
+    checks = _worst_checks(project, case_result.checks, nodes, elements, across, label)
+    if runs.changed:
+        note += (
+            f"; {runs.changed} of the {solved} value sets put a device in another state "
+            f"(found by the state search, {runs.iterations} pivots in all)"
+        )
     return ToleranceResult(
-        case_result.name, a.tolerance, note, quantities, solved, nodes, elements, checks, hist
-    )
+        case_result.name, a.tolerance, note, quantities, solved, nodes, elements, checks, hist,
+        across, runs.changed, runs.iterations,
+        tuple(runs.per_set) if len(runs.solver.pcs) and len(runs.per_set) <= LISTED_SETS else (),
+    )  # fmt: skip
 
 
 __all__ = ["Extreme", "ToleranceResult", "tolerance_result", "factor"]

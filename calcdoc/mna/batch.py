@@ -43,10 +43,13 @@ class Batch:
     power: np.ndarray
     x: np.ndarray
 
-    def output(self, kind: str, index: int) -> np.ndarray:
-        """One output over the batch: ``kind`` is ``node``, ``voltage``, ``current`` or ``power``."""
+    def output(self, kind: str, index) -> np.ndarray:
+        """One output over the batch: ``kind`` is ``node``, ``voltage``, ``current`` or
+        ``power`` (``index`` a node or element), or ``across`` (``index`` a node pair)."""
         if kind == "node":
             return self.node_voltage[:, index]
+        if kind == "across":
+            return self.node_voltage[:, index[0]] - self.node_voltage[:, index[1]]
         return getattr(self, kind)[:, index]
 
 

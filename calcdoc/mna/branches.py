@@ -13,6 +13,7 @@ from fractions import Fraction
 import numpy as np
 
 from calcdoc.mna.stamps import apply_map, apply_map_exact, structure
+from calcdoc.model.elements import KINDS
 from calcdoc.results import Branches, Netlist, Solution
 
 __all__ = ["Branches", "branches"]
@@ -50,6 +51,7 @@ def branches(net: Netlist, sol: Solution) -> Branches:
             tuple(cur),
             tuple(law),
             st.law_fixes_voltage,
+            stored_energy(net, f([float(v) for v in volt]), f([float(v) for v in cur])),
         )
     x = sol.x
     pe = st.extended()
@@ -57,4 +59,17 @@ def branches(net: Netlist, sol: Solution) -> Branches:
     v = nv[net.a] - nv[net.b]
     i = apply_map(st.current, pe, x, m)
     law = apply_map(st.law_voltage, pe, x, m)
-    return Branches(nv, v, i, v * i, law, law_fixes_voltage=st.law_fixes_voltage)
+    return Branches(nv, v, i, v * i, law, law_fixes_voltage=st.law_fixes_voltage,
+                    energy=stored_energy(net, v, i))  # fmt: skip
+
+
+def stored_energy(net: Netlist, v: np.ndarray, i: np.ndarray) -> np.ndarray:
+    """½·value·v² or ½·value·i² per element, as its type's ``energy`` column says (J)."""
+    by = [KINDS[t].energy for t in net.types]
+    val = net.floats()
+    out = np.zeros(len(by))
+    for what, q in (("voltage", v), ("current", i)):
+        mask = np.array([b == what for b in by], dtype=bool)
+        if mask.any():
+            out[mask] = 0.5 * val[mask] * np.asarray(q, dtype=float)[mask] ** 2
+    return out

@@ -56,6 +56,8 @@ def netlist(
         elif e.control_element is not None:
             ce[j] = pos[e.control_element]
         kind = KINDS[e.type]
+        if not e.main_given:
+            absent.append((j, kind.main.name))
         if len(kind.keys) > 1:
             given = dict(e.numbers)
             for k in kind.keys[1:]:
@@ -64,7 +66,7 @@ def netlist(
                 else:
                     absent.append((j, k.name))
         state = (states or {}).get(e.name, e.state) if kind.states else ""
-        st.append(state or "")
+        st.append(state or (kind.states[0] if kind.states else ""))
     floats = np.fromiter((float(v) for v in vals), dtype=float, count=len(vals))
     return Netlist(
         nodes, names, tuple(e.type for e in els), a, b, vals, cn, ce, floats,

@@ -17,6 +17,13 @@ project file, the MNA stamps (symbolic, exact, float, sparse, batched), the
 derivatives for sensitivities, element voltages, currents and powers, the
 KVL terms, the design checks and the diagram.  A new type is one new entry
 (:func:`register`) plus, if it needs one, a diagram symbol.
+
+States come in two kinds.  A contact's state is *given* (``state = "open"``,
+or set per case).  A diode's state is *found*: its type lists its
+:class:`Knee` pieces (where the characteristic bends), its law in each
+state follows from them (:func:`knee_laws`), and the state search
+(:mod:`calcdoc.mna.states`) finds the states in which every device's
+consistency test holds.
 """
 
 from __future__ import annotations
@@ -24,7 +31,17 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
-from calcdoc.model.quantities import AMPERE, NONE, OHM, SIEMENS, VOLT, WATT, Dimension
+from calcdoc.model.quantities import (
+    AMPERE,
+    FARAD,
+    HENRY,
+    NONE,
+    OHM,
+    SIEMENS,
+    VOLT,
+    WATT,
+    Dimension,
+)
 
 
 @dataclass(frozen=True)
@@ -120,6 +137,56 @@ class Law:
 
 
 @dataclass(frozen=True)
+class Knee:
+    """One conducting piece of a piecewise-linear element (a diode's forward
+    conduction, a zener's breakdown).
+
+    The piece carries the current ``i = direction · z`` with ``z ≥ 0``, and
+    its slack ``w = threshold − direction · v + slope · z`` is never
+    negative; one of the two is zero (the piece conducts, ``w = 0``, or it
+    does not, ``z = 0``).  While it conducts the element's law is
+    ``v − slope · i = direction · threshold``.
+
+    Attributes
+    ----------
+    state : str
+        The element's state while this piece conducts.
+    direction : int
+        +1: conducts from a to b once ``v`` reaches the threshold; −1:
+        from b to a once ``−v`` does.
+    threshold : str
+        Key of the threshold voltage; a piece whose key is left out does
+        not exist (a diode without ``breakdown_voltage`` never breaks down).
+    slope : str
+        Key of the slope resistance (left out: 0).
+    symbol : str
+        How the threshold is written in tests (``Vf``, ``Vbr``).
+    """
+
+    state: str
+    direction: int
+    threshold: str
+    slope: str
+    symbol: str
+
+
+@dataclass(frozen=True)
+class WindowKey:
+    """A key holding a pair ``[low, high]`` that an element result must stay inside.
+
+    ``of`` names the result (``voltage``, ``current``), ``quantity`` what the
+    check calls it (``output voltage``); the check id is ``ELEMENT.NAME``.
+    """
+
+    name: str
+    dimension: Dimension
+    unit: str
+    of: str
+    quantity: str
+    words: str
+
+
+@dataclass(frozen=True)
 class ElementType:
     """One element type: terminals, keys, law per state, ratings, drawing.
 
@@ -145,6 +212,21 @@ class ElementType:
         A source: its current rating is a capability.
     drawing : str
         The diagram symbol.
+    states : tuple of str
+        The element's states, the default first (empty: one state, ``""``).
+    knees : tuple of Knee
+        For an element whose states are found by the state search: its
+        conducting pieces (the first state is the one where none conducts).
+        Empty for given states.
+    energy : str or None
+        ``"voltage"``: stores ½·value·v² (a capacitor); ``"current"``:
+        ½·value·i² (a coil); None: nothing.
+    windows : tuple of WindowKey
+        Pair keys checked as windows on a result (an op-amp's output range).
+    drawings : tuple of str
+        Further symbols the project may choose with ``symbol = "..."``.
+    drawing_if : tuple of (str, str)
+        (key, symbol): drawn with that symbol when the key is given.
     """
 
     type: str
@@ -157,15 +239,39 @@ class ElementType:
     supply: bool = False
     drawing: str = "box"
     states: tuple[str, ...] = field(default=())
+    knees: tuple[Knee, ...] = ()
+    energy: str | None = None
+    windows: tuple[WindowKey, ...] = ()
+    drawings: tuple[str, ...] = ()
+    drawing_if: tuple[tuple[str, str], ...] = ()
 
     @property
     def main(self) -> NumberKey:
-        return self.keys[0]
+        """The main value (toleranced, swept, set by cases); a placeholder
+        that is never given for a type without number keys."""
+        return self.keys[0] if self.keys else NO_VALUE
+
+    @property
+    def has_value(self) -> bool:
+        """The type has a main value a project can give."""
+        return bool(self.keys)
+
+    @property
+    def searched(self) -> bool:
+        """The states are found by the state search, not given."""
+        return bool(self.knees)
+
+    @property
+    def settable(self) -> tuple[str, ...]:
+        """States a project file or a case may give."""
+        return () if self.knees else self.states
 
     def key(self, name: str) -> NumberKey:
         for k in self.keys:
             if k.name == name:
                 return k
+        if name == NO_VALUE.name and not self.keys:
+            return NO_VALUE
         raise KeyError(name)
 
     def law(self, state: str = "", absent: frozenset[str] = frozenset()) -> Law:
@@ -174,6 +280,24 @@ class ElementType:
 
 
 ONE = Coef(1)
+NO_VALUE = NumberKey("value", NONE, "", required=False, words="no value")
+"""The main-value placeholder of a type without number keys (an op-amp)."""
+
+
+def knee_laws(knees: tuple[Knee, ...], off: str, off_text: str = "I = 0") -> dict[str, Law]:
+    """The law of each state of a piecewise-linear element.
+
+    With no piece conducting the element carries no current (``off``);
+    with piece ``k`` conducting, ``v − R·i = direction · threshold``.
+    """
+    laws = {off: Law(i=ONE, text=off_text)}
+    for k in knees:
+        sign = "" if k.direction > 0 else "−"
+        laws[k.state] = Law(
+            v=ONE, i=Coef(-1, k.slope), const=Coef(k.direction, k.threshold),
+            text=f"V = {sign}{k.symbol} + R·I",
+        )  # fmt: skip
+    return laws
 
 
 def _k(key: str, sign: int = 1) -> Coef:
@@ -241,6 +365,53 @@ register(ElementType(
 ))  # fmt: skip
 
 
+_DIODE_KNEES = (
+    Knee("conducting", 1, "forward_voltage", "resistance", "Vf"),
+    Knee("breakdown", -1, "breakdown_voltage", "resistance", "Vbr"),
+)
+register(ElementType(
+    "switch", "switch or contact", ("a", "b"),
+    (_value(OHM, "Ω", "resistance", required=False, sign="nonnegative",
+            words="contact resistance"),),
+    {"closed": Law(v=ONE, i=_k("resistance", -1), text="V = R·I"),
+     "open": Law(i=ONE, text="I = 0")},
+    ratings=("current", "voltage"), drawing="contact", states=("closed", "open"),
+))  # fmt: skip
+register(ElementType(
+    "diode", "diode", ("anode", "cathode"),
+    (_value(VOLT, "V", "forward_voltage", sign="nonnegative", words="forward voltage"),
+     _value(OHM, "Ω", "resistance", symbol="R", required=False, sign="nonnegative",
+            words="slope resistance"),
+     _value(VOLT, "V", "breakdown_voltage", symbol="Vbr", required=False, sign="positive",
+            words="breakdown voltage")),
+    knee_laws(_DIODE_KNEES, "blocking"),
+    ratings=("power", "current", "reverse_voltage"), drawing="diode",
+    states=("blocking", "conducting", "breakdown"), knees=_DIODE_KNEES,
+    drawings=("diode", "led", "zener"), drawing_if=(("breakdown_voltage", "zener"),),
+))  # fmt: skip
+register(ElementType(
+    "opamp", "ideal operational amplifier", ("output", "reference"),
+    (),
+    {"": Law(u=ONE, text="V(+) − V(−) = 0")},
+    control="nodes", ratings=("current",), drawing="opamp",
+    windows=(WindowKey("output_range", VOLT, "V", "voltage", "output voltage", "output range"),),
+))  # fmt: skip
+register(ElementType(
+    "capacitor", "capacitor", ("a", "b"),
+    (_value(FARAD, "F", sign="positive", words="capacitance"),),
+    {"": Law(i=ONE, text="I = 0")},
+    ratings=("voltage",), drawing="capacitor", energy="voltage",
+))  # fmt: skip
+register(ElementType(
+    "inductor", "coil", ("a", "b"),
+    (_value(HENRY, "H", sign="positive", words="inductance"),
+     _value(OHM, "Ω", "resistance", symbol="R", required=False, sign="nonnegative",
+            words="winding resistance")),
+    {"": Law(v=ONE, i=_k("resistance", -1), text="V = R·I")},
+    ratings=("power", "current"), drawing="coil", energy="current",
+))  # fmt: skip
+
+
 # --------------------------------------------------------------------------
 # keys common to every element, and the rating keys
 # --------------------------------------------------------------------------
@@ -276,9 +447,11 @@ RATING_KEYS: dict[str, RatingKey] = {
 
 def element_keys(kind: ElementType) -> tuple[str, ...]:
     """Every key an element of this type may carry."""
-    out = [*COMMON_KEYS, *(k.name for k in kind.keys)]
+    out = [*COMMON_KEYS, *(k.name for k in kind.keys), *(w.name for w in kind.windows)]
     if kind.control:
         out.append("control")
-    if kind.states:
+    if kind.settable:
         out.append("state")
+    if kind.drawings:
+        out.append("symbol")
     return tuple(out)

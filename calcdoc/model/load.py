@@ -29,6 +29,7 @@ from calcdoc.model.expressions import (
     parse_expression,
 )
 from calcdoc.model.project import (
+    AcrossWindow,
     Analysis,
     Case,
     Derating,
@@ -56,6 +57,7 @@ from calcdoc.model.quantities import (
     VOLT,
     WATT,
     Dimension,
+    Number,
     Quantity,
     QuantityError,
     dim_div,
@@ -752,14 +754,32 @@ def _element(
         else:
             control_element = c
     state = None
-    if kind.states:
-        state = spec.get("state", kind.states[0])
-        if state not in kind.states:
+    if kind.settable:
+        state = spec.get("state", kind.settable[0])
+        if state not in kind.settable:
             faults.add(
                 f"{path}.state",
-                f"expected one of {', '.join(kind.states)}{_hint(str(state), kind.states)}",
+                f"expected one of {', '.join(kind.settable)}{_hint(str(state), kind.settable)}",
             )
             ok = False
+    windows = []
+    for w in kind.windows:
+        if w.name in spec:
+            got = _window(spec[w.name], w, f"{path}.{w.name}", faults)
+            if got is None:
+                ok = False
+            else:
+                windows.append((w.name, *got))
+    symbol = None
+    if "symbol" in spec:
+        if spec["symbol"] not in kind.drawings:
+            faults.add(
+                f"{path}.symbol",
+                f"expected one of {', '.join(kind.drawings)}"
+                f"{_hint(str(spec['symbol']), kind.drawings)}",
+            )
+        else:
+            symbol = spec["symbol"]
     rating = Rating()
     if "rating" in spec:
         rpath = f"{path}.rating"
@@ -795,24 +815,60 @@ def _element(
     source = _text(spec, "source", path, faults)
     basis = _text(spec, "basis", path, faults)
     main = kind.main.name
-    if not ok or main not in numbers:
+    if not ok or (main not in numbers and kind.main.required):
         return None
-    value, text, expr = numbers[main]
+    if main in numbers:
+        value, text, expr = numbers[main]
+    else:  # an optional main value left out: a placeholder the laws drop
+        if tol is not None:
+            faults.add(f"{path}.tolerance", _no_value(kind))
+        value = Quantity(Fraction(0), kind.main.dimension)
+        text, expr = "", Literal(value, "")
     more = tuple(KeyValue(k, q.magnitude, t, x) for k, (q, t, x) in numbers.items() if k != main)
     return Element(
         name=name, type=etype, nodes=(nodes[0], nodes[1]), value=value.magnitude,
         value_text=text, value_expr=expr, control_nodes=control_nodes,
         control_element=control_element, tolerance=tol, rating=rating, description=desc,
         source=source, basis=basis, series=series, tcr=tcr, derating=derating, more=more,
-        state=state,
+        state=state, main_given=main in numbers, windows=tuple(windows), symbol=symbol,
     )  # fmt: skip
+
+
+def _no_value(kind) -> str:
+    """Why an element whose main value is left out cannot be varied."""
+    if not kind.has_value:
+        return f"a {kind.type} has no value to vary"
+    return f"no '{kind.main.name}' is given ({kind.main.words} taken as ideal), so it cannot vary"
+
+
+def _window(value: Any, key, path: str, faults: _Faults) -> tuple[Number, Number] | None:
+    """A ``[low, high]`` pair of quantities of the key's dimension."""
+    if not isinstance(value, list) or len(value) != 2:
+        faults.add(path, f'expected [low, high], such as ["-13 {key.unit}", "13 {key.unit}"]')
+        return None
+    lo = _quantity(value[0], key.dimension, f"{path}[0]", faults)
+    hi = _quantity(value[1], key.dimension, f"{path}[1]", faults)
+    if lo is None or hi is None:
+        return None
+    if lo.magnitude >= hi.magnitude:
+        faults.add(path, "the low end must be below the high end")
+        return None
+    return lo.magnitude, hi.magnitude
 
 
 def _limits(raw: Any, faults: _Faults, nodes: set[str], declared_nodes: Any = ()) -> Limits:
     t = _table(raw, "limits", faults)
     _keys(
         t,
-        ("power_fraction", "voltage_fraction", "current_fraction", "ambient", "derating", "nodes"),
+        (
+            "power_fraction",
+            "voltage_fraction",
+            "current_fraction",
+            "ambient",
+            "derating",
+            "nodes",
+            "across",
+        ),
         "limits",
         faults,
     )
@@ -842,8 +898,62 @@ def _limits(raw: Any, faults: _Faults, nodes: set[str], declared_nodes: Any = ()
         ambient=_temperature(t.get("ambient"), "limits.ambient", faults),
         derating=_derating(t.get("derating"), "limits.derating", faults),
         nodes=tuple(windows),
+        across=_across(t.get("across"), faults, nodes, declared_nodes),
         **fr,
     )
+
+
+def _across(raw: Any, faults: _Faults, nodes: set[str], declared_nodes: Any) -> tuple:
+    """``[[limits.across]]``: windows on V(a) − V(b)."""
+    if raw is None:
+        return ()
+    if not isinstance(raw, list):
+        faults.add("limits.across", "expected an array of tables ([[limits.across]])")
+        return ()
+    out, seen = [], set()
+    for i, spec in enumerate(raw):
+        path = f"limits.across[{i}]"
+        spec = _table(spec, path, faults)
+        _keys(spec, ("name", "nodes", "min", "max", "description"), path, faults)
+        name = spec.get("name")
+        if not isinstance(name, str) or not NAME_RE.fullmatch(name):
+            faults.add(
+                f"{path}.name", "every window needs a name of letters, digits, '_', '-', '.'"
+            )
+            continue
+        if name in seen:
+            faults.add(f"{path}.name", f"window name {name!r} is used twice")
+            continue
+        seen.add(name)
+        pair = spec.get("nodes")
+        if (
+            not isinstance(pair, list)
+            or len(pair) != 2
+            or not all(isinstance(n, str) for n in pair)
+        ):
+            faults.add(f"{path}.nodes", 'expected two node names, such as ["tx_plus", "tx_minus"]')
+            continue
+        bad = [n for n in pair if n not in nodes]
+        for n in bad:
+            if n not in declared_nodes:
+                faults.add(f"{path}.nodes", f"no such node {n!r}{_hint(n, nodes)}")
+        if bad:
+            continue
+        if pair[0] == pair[1]:
+            faults.add(f"{path}.nodes", f"both ends are node {pair[0]!r}")
+            continue
+        lo = _quantity(spec["min"], VOLT, f"{path}.min", faults) if "min" in spec else None
+        hi = _quantity(spec["max"], VOLT, f"{path}.max", faults) if "max" in spec else None
+        if "min" not in spec and "max" not in spec:
+            faults.add(path, "give 'min', 'max' or both")
+            continue
+        if lo is not None and hi is not None and lo.magnitude > hi.magnitude:
+            faults.add(path, "'min' is above 'max'")
+            continue
+        out.append(AcrossWindow(name, (pair[0], pair[1]), lo.magnitude if lo else None,
+                                hi.magnitude if hi else None,
+                                _text(spec, "description", path, faults)))  # fmt: skip
+    return tuple(out)
 
 
 def _cases(
@@ -876,7 +986,20 @@ def _cases(
         for target, value in _table(spec.get("set"), f"{path}.set", faults).items():
             spath = f"{path}.set.{target}"
             if target in elements:
-                dim = elements[target].kind.main.dimension
+                e = elements[target]
+                if e.kind.settable and isinstance(value, str) and value in e.kind.settable:
+                    settings.append(Setting(target, value, None, NONE, state=True))
+                    continue
+                if e.kind.searched and isinstance(value, str) and value in e.kind.states:
+                    faults.add(spath, f"the state of a {e.type} is found by the solver, not set")
+                    continue
+                if not e.main_given:
+                    words = f"one of {', '.join(e.kind.settable)}" if e.kind.settable else ""
+                    faults.add(
+                        spath, _no_value(e.kind) + (f"; a case may set {words}" if words else "")
+                    )
+                    continue
+                dim = e.kind.main.dimension
             elif target in params:
                 dim = params[target].value.dimension
             else:
@@ -998,6 +1121,9 @@ def _sweeps(
         spec = _table(spec, path, faults)
         _keys(spec, ("name", "target", "from", "to", "points", "scale", "outputs"), path, faults)
         target = spec.get("target")
+        if target in elements and not elements[target].main_given:
+            faults.add(f"{path}.target", _no_value(elements[target].kind))
+            continue
         if target in elements:
             dim = elements[target].kind.main.dimension
         elif target in params:

@@ -87,15 +87,30 @@ class Element:
     derating: Derating | None = None
     more: tuple[KeyValue, ...] = ()
     state: str | None = None  # for multi-state elements (a contact: "open" / "closed")
+    main_given: bool = True  # False: an optional main value left out (an ideal contact)
+    windows: tuple[tuple[str, Number, Number], ...] = ()  # (key, low, high): output_range
+    symbol: str | None = None  # the diagram symbol chosen with ``symbol = "led"``
 
     @property
     def kind(self) -> ElementType:
         return KINDS[self.type]
 
     @property
+    def drawing(self) -> str:
+        """The diagram symbol: chosen, else by the keys given, else the type's own."""
+        if self.symbol:
+            return self.symbol
+        given = {k for k, _ in self.numbers}
+        for key, symbol in self.kind.drawing_if:
+            if key in given:
+                return symbol
+        return self.kind.drawing
+
+    @property
     def numbers(self) -> tuple[tuple[str, Number], ...]:
         """Every number key given: (key, value), the main value first."""
-        return ((self.kind.main.name, self.value), *((k.key, k.value) for k in self.more))
+        main = ((self.kind.main.name, self.value),) if self.main_given else ()
+        return (*main, *((k.key, k.value) for k in self.more))
 
 
 @dataclass(frozen=True)
@@ -157,6 +172,17 @@ class NodeWindow:
 
 
 @dataclass(frozen=True)
+class AcrossWindow:
+    """A window on the voltage between two nodes, V(a) − V(b) (``[[limits.across]]``)."""
+
+    name: str
+    nodes: tuple[str, str]
+    min: Number | None = None
+    max: Number | None = None
+    description: str = ""
+
+
+@dataclass(frozen=True)
 class Limits:
     power_fraction: Fraction = Fraction(1)
     voltage_fraction: Fraction = Fraction(1)
@@ -164,6 +190,7 @@ class Limits:
     ambient: Fraction | None = None  # °C
     derating: Derating | None = None
     nodes: tuple[NodeWindow, ...] = ()
+    across: tuple[AcrossWindow, ...] = ()
 
 
 @dataclass(frozen=True)

@@ -37,6 +37,8 @@ SIEMENS: Dimension = (-2, -1, 3, 2, 0)
 METRE: Dimension = (1, 0, 0, 0, 0)
 KELVIN: Dimension = (0, 0, 0, 0, 1)
 SECOND: Dimension = (0, 0, 1, 0, 0)
+FARAD: Dimension = (-2, -1, 4, 2, 0)
+HENRY: Dimension = (2, 1, -2, -2, 0)
 
 DIMENSION_NAMES: dict[Dimension, str] = {
     NONE: "dimensionless",
@@ -48,6 +50,8 @@ DIMENSION_NAMES: dict[Dimension, str] = {
     METRE: "length (m)",
     KELVIN: "temperature (K)",
     SECOND: "time (s)",
+    FARAD: "capacitance (F)",
+    HENRY: "inductance (H)",
 }
 
 SI_SYMBOL: dict[Dimension, str] = {
@@ -60,6 +64,8 @@ SI_SYMBOL: dict[Dimension, str] = {
     METRE: "m",
     KELVIN: "K",
     SECOND: "s",
+    FARAD: "F",
+    HENRY: "H",
 }
 
 
@@ -229,6 +235,8 @@ _SYMBOLS: dict[str, tuple[Fraction, Dimension]] = {
     "m": (Fraction(1), METRE),
     "s": (Fraction(1), SECOND),
     "K": (Fraction(1), KELVIN),
+    "F": (Fraction(1), FARAD),
+    "H": (Fraction(1), HENRY),
 }
 
 _DIMENSIONLESS_WORDS: dict[str, Fraction] = {

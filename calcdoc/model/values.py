@@ -111,7 +111,7 @@ def element_values(
     if case is not None:
         env1 = parameter_values(project, poverride)
         for s in case.settings:
-            if s.target not in pnames:
+            if s.target not in pnames and not s.state:  # a state is no value
                 eoverride[s.target] = evaluate(s.expr, env1).magnitude
     if element_overrides:
         eoverride.update(element_overrides)

@@ -6,23 +6,28 @@ from __future__ import annotations
 from reportlab.platypus import Flowable, KeepTogether
 
 from calcdoc.format import eng, number, value_text
+from calcdoc.report import parts
 from calcdoc.report.access import stage
 from calcdoc.report.diagram import LEGEND, DiagramPart, circuit_drawing, connection_rows
 from calcdoc.report.equations import closed_form_tex, equation_pieces, tex_quantity, tex_unknown
 from calcdoc.report.layout import Layout
 from calcdoc.report.mathtext import MathLines
+from calcdoc.report.symbols import part_label
 
 SUBSTITUTE_LIMIT = 150  # equations shown with values substituted (beyond: symbols only)
 MATRIX_INLINE_LIMIT = 8  # unknowns for the matrix set out in full on the page
 MATRIX_LISTING_LIMIT = 60  # unknowns for the listing of non-zero entries in an appendix
 
 
-def diagram_parts(p) -> list[DiagramPart]:
-    parts = []
-    for e in p.elements:
-        parts.append(DiagramPart(e.name, e.type, e.nodes, value_text(e.kind.main.unit, float(e.value), 3),
-                                 e.control_nodes, e.control_element))  # fmt: skip
-    return parts
+def diagram_parts(p, net=None) -> list[DiagramPart]:
+    """The parts to draw, each contact in its state in ``net`` (the case drawn)."""
+    out = []
+    for j, e in enumerate(p.elements):
+        state = net.state(j) if net is not None else ""
+        label = part_label(e, state, value_text(e.kind.main.unit, float(e.value), 3))
+        out.append(DiagramPart(e.name, e.type, e.nodes, label, e.control_nodes,
+                               e.control_element, e.drawing, state))  # fmt: skip
+    return out
 
 
 def diagram_section(lay: Layout) -> list[Flowable]:
@@ -30,7 +35,7 @@ def diagram_section(lay: Layout) -> list[Flowable]:
     p = r.project
     nominal = r.cases[0]
     levels = dict(zip(nominal.netlist.nodes, nominal.branches.node_voltage.tolist(), strict=True))
-    parts = diagram_parts(p)
+    parts = diagram_parts(p, nominal.netlist)
     out: list[Flowable] = [lay.section("diagram")]
     sub = lay.subsections("diagram")
     drawing = circuit_drawing(parts, p.reference, width=lay.width, max_height=lay.height - 200,
@@ -115,6 +120,7 @@ def formulation_section(lay: Layout) -> tuple[list[Flowable], list[Flowable]]:
         + ("then with the values substituted. " if substitute else
            f"without values: beyond {SUBSTITUTE_LIMIT} equations values are not substituted. ")
         + "KCL: the currents leaving a node through its elements sum to zero.", "small"))  # fmt: skip
+    out += [lay.paragraph(t, "small") for t in parts.formulation_notes(case)]
     units = form.units()
     fmt = _plain(lay, units)
     for k, eq in enumerate(form.equations, 1):

@@ -21,10 +21,10 @@ drawing (the report lists its connections instead).
 from __future__ import annotations
 
 from collections import deque
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
-from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Polygon, Rect, String
+from reportlab.graphics.shapes import Circle, Drawing, Group, Line, Rect, String
 from reportlab.lib import colors
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
@@ -64,6 +64,8 @@ class DiagramPart:
     label: str
     control_nodes: tuple[str, str] | None = None
     control_element: str | None = None
+    drawing: str = ""  # the element table's symbol name (report/symbols.py); "" = by kind
+    state: str = ""  # a contact's state in the case drawn
 
 
 @dataclass
@@ -120,7 +122,8 @@ def connection_rows(parts: Sequence[DiagramPart]) -> list[tuple[str, str]]:
 
 def label_text(p: DiagramPart) -> tuple[str, str]:
     """(name, value) of a part's label; a dependent source's value is gain × control."""
-    if p.control_nodes:
+    gain = p.kind not in KINDS or KINDS[p.kind].has_value  # an op-amp has no gain to print
+    if p.control_nodes and gain:
         return p.name, f"{p.label} × V({p.control_nodes[0]},{p.control_nodes[1]})"
     if p.control_element:
         return p.name, f"{p.label} × I({p.control_element})"
@@ -309,53 +312,9 @@ def circuit_drawing(
     return Drawing(full_w, full_h, g)
 
 
-def _box(g: Group, x: float, y: float, ink) -> None:
-    g.add(Rect(x - 4.5, y - 11, 9, 22, fillColor=colors.white, strokeColor=ink, strokeWidth=1))
-
-
-def _circle(g: Group, x: float, y: float, ink) -> None:
-    g.add(Circle(x, y, 10, fillColor=colors.white, strokeColor=ink, strokeWidth=1))
-
-
-def _diamond(g: Group, x: float, y: float, ink) -> None:
-    g.add(Polygon([x, y + 11, x + 9, y, x, y - 11, x - 9, y], fillColor=colors.white,
-                  strokeColor=ink, strokeWidth=1))  # fmt: skip
-
-
-def _polarity(g: Group, x: float, y: float, a_on_top: bool, font: str, ink) -> None:
-    sa, sb = (5.5, -5.5) if a_on_top else (-5.5, 5.5)
-    for dy, mark in ((sa, "+"), (sb, "−")):
-        g.add(String(x, y + dy - 2.5, mark, fontName=font, fontSize=MIN_FONT,
-                     textAnchor="middle", fillColor=ink))  # fmt: skip
-
-
-def _arrow(g: Group, x: float, y: float, a_on_top: bool, ink) -> None:
-    """Current flows a → b: the arrow points at b."""
-    d = -1 if a_on_top else 1
-    g.add(Line(x, y - 6 * d, x, y + 5 * d, strokeColor=ink, strokeWidth=1))
-    g.add(Polygon([x, y + 7 * d, x - 3, y + 2.5 * d, x + 3, y + 2.5 * d], fillColor=ink,
-                  strokeColor=ink, strokeWidth=0.5))  # fmt: skip
-
-
-SymbolDrawer = Callable[[Group, float, float, bool, str, object], None]
-
-SYMBOLS: dict[str, SymbolDrawer] = {
-    "resistor": lambda g, x, y, top, font, ink: _box(g, x, y, ink),
-    "box": lambda g, x, y, top, font, ink: _box(g, x, y, ink),
-    "voltage_source": lambda g, x, y, top, font, ink: (
-        _circle(g, x, y, ink), _polarity(g, x, y, top, font, ink)),
-    "current_source": lambda g, x, y, top, font, ink: (
-        _circle(g, x, y, ink), _arrow(g, x, y, top, ink)),
-    "dependent_voltage": lambda g, x, y, top, font, ink: (
-        _diamond(g, x, y, ink), _polarity(g, x, y, top, font, ink)),
-    "dependent_current": lambda g, x, y, top, font, ink: (
-        _diamond(g, x, y, ink), _arrow(g, x, y, top, ink)),
-}  # fmt: skip
-"""Diagram symbols by the element table's ``drawing`` name: a new symbol is one entry."""
-
-
 def _symbol(p: DiagramPart, x: float, y: float, a_on_top: bool, font: str) -> Group:
-    g = Group()
-    drawing = KINDS[p.kind].drawing if p.kind in KINDS else "box"
-    SYMBOLS.get(drawing, SYMBOLS["box"])(g, x, y, a_on_top, font, colors.black)
-    return g
+    """The part's symbol: the project's chosen drawing, else its type's (the element table)."""
+    from calcdoc.report.symbols import SYMBOLS
+
+    drawing = p.drawing or (KINDS[p.kind].drawing if p.kind in KINDS else "box")
+    return SYMBOLS.get(drawing, SYMBOLS["box"])(x, y, a_on_top, p.state, font)

@@ -6,7 +6,9 @@ from reportlab.platypus import Flowable
 
 from calcdoc import __version__
 from calcdoc.format import eng, number, percent, value_text
+from calcdoc.model.elements import RATING_KEYS
 from calcdoc.model.expressions import Literal
+from calcdoc.report import parts
 from calcdoc.report.access import solver_limits
 from calcdoc.report.cover import CAUTIONS
 from calcdoc.report.layout import Layout
@@ -81,6 +83,7 @@ def method_section(lay: Layout) -> list[Flowable]:
         out.append(lay.paragraph("None stated."))
     exact, dense = solver_limits(lay.results)
     out += [sub("Method"), lay.paragraph(METHOD.format(exact=exact, dense=dense))]
+    out += [lay.paragraph(t) for t in parts.method_notes(lay.results)]
     out.append(lay.paragraph(
         f"Software: the calculation and this record were produced by calcdoc {__version__}; "
         f"{lay.ref('appendix_software') if lay.has('appendix_software') else 'the software record'} "
@@ -104,9 +107,15 @@ def tolerance_text(e) -> str:
 
 
 def rating_text(e) -> str:
-    parts = [eng(float(v), u) for v, u in ((e.rating.power, "W"), (e.rating.voltage, "V"),
-                                             (e.rating.current, "A")) if v is not None]  # fmt: skip
-    return ", ".join(parts) or "none stated"
+    """Every rating given; the unit names power, voltage and current, a word the others."""
+    given = e.rating.given()
+    if not given:
+        return "none stated"
+    return ", ".join(
+        eng(float(v), RATING_KEYS[q].unit)
+        + ("" if q in ("power", "voltage", "current") else " " + RATING_KEYS[q].words.split()[0])
+        for q, v in given
+    )
 
 
 def source_text(e) -> str:
@@ -159,7 +168,7 @@ def inputs_section(lay: Layout) -> list[Flowable]:
             kind += f"; control I({e.control_element})"
         if e.description:
             kind += "\n" + e.description
-        val = value_text(e.kind.main.unit, float(e.value), lay.sig)
+        val = parts.value_text(e, lay.sig, value_text(e.kind.main.unit, float(e.value), lay.sig))
         if not isinstance(e.value_expr, Literal):
             val += f"\n= {e.value_text}"
         rows.append((e.name, kind, f"{e.nodes[0]} → {e.nodes[1]}", val, tolerance_text(e),
@@ -196,6 +205,7 @@ def inputs_section(lay: Layout) -> list[Flowable]:
         rows.append((f"Node {w.node} window", rng))
     if not lim.nodes:
         rows.append(("Node voltage windows", "none stated"))
+    rows += parts.across_rows(lim, lay.sig)
     out.append(lay.table(["Limit", "Value"], rows, [2.5, 4]))
     out.append(sub("Operating cases"))
     if p.cases:

@@ -7,6 +7,7 @@ from reportlab.lib import colors
 from reportlab.platypus import Flowable, Spacer
 
 from calcdoc.format import counted, eng, number, value_text
+from calcdoc.report import parts
 from calcdoc.report.access import control_value
 from calcdoc.report.layout import Layout
 from calcdoc.report.resolution import Resolution
@@ -159,6 +160,21 @@ def verification_section(lay: Layout) -> list[Flowable]:
         if "power_chart" in lay.style.sections and 0 < len(led.by_element) <= 40:
             block.append(LedgerChart(lay, res, list(led.by_element), led.absorbed, led.delivered))
         out.append(lay.keep_together(block))
+        out += _part_blocks(lay, parts.case_blocks(c, lay.results.project, lay.sig))
+    return out
+
+
+def _part_blocks(lay: Layout, blocks) -> list[Flowable]:
+    """The device-state, op-amp, contact and stored-energy blocks of a case."""
+    out: list[Flowable] = []
+    for b in blocks:
+        if isinstance(b, parts.Grid):
+            out.append(lay.table(list(b.header), [list(r) for r in b.rows], list(b.widths),
+                                 fail_rows=list(b.failing)))  # fmt: skip
+        elif b.style == "lead":
+            out += [Spacer(1, 4), lay.rich(f"<b>{lay.text(b.text)}</b>", "small")]
+        else:
+            out.append(lay.paragraph(b.text, b.style))
     return out
 
 

@@ -7,7 +7,10 @@ temperature derating factor at ``limits.ambient``; its rated voltage ×
 ``voltage_fraction``; its rated current × ``current_fraction``.
 
 Which ratings an element accepts is a column of the element table; what
-each rating is compared with is the one table :data:`RATINGS` below.
+each rating is compared with is the one table :data:`RATINGS` below.  Pair
+keys of the table's ``windows`` column (an op-amp's ``output_range``) and
+``[[limits.across]]`` windows are checked by :func:`range_check`, against
+the nearer end of their range.
 """
 
 from __future__ import annotations
@@ -21,7 +24,9 @@ from calcdoc.model.derating import derating_curve, derating_factor
 from calcdoc.model.project import Limits, Project
 from calcdoc.results import Branches, Check, Netlist
 
-__all__ = ["Check", "RATINGS", "Rating", "design_checks", "max_check", "window_check"]
+__all__ = [
+    "Check", "RATINGS", "Rating", "design_checks", "max_check", "range_check", "window_check",
+]  # fmt: skip
 
 
 @dataclass(frozen=True)
@@ -40,6 +45,7 @@ class Rating:
     policy: str  # the [limits] fraction that scales it
     of: str
     measure: Callable[[np.ndarray], np.ndarray]
+    not_in: tuple[str, ...] = ()  # states in which the rating is not checked
 
 
 RATINGS: dict[str, Rating] = {
@@ -55,6 +61,7 @@ RATINGS: dict[str, Rating] = {
             "voltage_fraction",
             "voltage",
             lambda v: np.maximum(-v, 0.0),
+            ("breakdown",),  # a zener in breakdown is meant to be there
         ),  # fmt: skip
     )
 }
@@ -102,30 +109,51 @@ def window_check(cid: str, subject: str, quantity: str, value: float, limit: flo
     return Check(cid, subject, quantity, value, limit, "max", util, limit - value, basis)
 
 
+def range_check(cid: str, subject: str, quantity: str, value: float, low, high,
+                basis: str) -> Check:  # fmt: skip
+    """A signed value against a range: the check of the nearer end (the smaller margin)."""
+    ends = []
+    if low is not None:
+        ends.append(window_check(cid, subject, quantity, value, float(low), "min",
+                                 f"{basis}, lower end"))  # fmt: skip
+    if high is not None:
+        ends.append(window_check(cid, subject, quantity, value, float(high), "max",
+                                 f"{basis}, upper end"))  # fmt: skip
+    return min(ends, key=lambda c: c.margin)
+
+
+def element_checks(project: Project, net: Netlist, br: Branches, j: int) -> list[Check]:
+    """The rating and window checks of element ``j`` in its state."""
+    e = project.elements[j]
+    out: list[Check] = []
+    state = net.state(j)
+    for key, rating in RATINGS.items():
+        if getattr(e.rating, key, None) is None or state in rating.not_in:
+            continue
+        limit, basis = rating_limit(project, e, key)
+        value = float(rating.measure(getattr(br, rating.of)[j]))
+        out.append(max_check(f"{e.name}.{key}", e.name, rating.quantity, value, limit, basis))
+    windows = {w.name: w for w in e.kind.windows}
+    for key, low, high in e.windows:
+        w = windows[key]
+        value = float(getattr(br, w.of)[j])
+        out.append(range_check(f"{e.name}.{key}", e.name, w.quantity, value, low, high,
+                               f"{w.words} {float(low):g} to {float(high):g} {w.unit}"))  # fmt: skip
+    return out
+
+
 def design_checks(project: Project, net: Netlist, br: Branches) -> tuple[Check, ...]:
     """Every rating and limit check for one solved case.
 
     Returns
     -------
     tuple of Check
-        In element order (ratings in table order), then node windows.
+        In element order (ratings in table order, then windows), then node
+        windows, then ``[[limits.across]]`` windows.
     """
     out: list[Check] = []
-    for j, e in enumerate(project.elements):
-        r = e.rating
-        if (
-            r.power is None
-            and r.voltage is None
-            and r.current is None
-            and r.reverse_voltage is None
-        ):
-            continue
-        for key, rating in RATINGS.items():
-            if getattr(e.rating, key, None) is None:
-                continue
-            limit, basis = rating_limit(project, e, key)
-            value = float(rating.measure(getattr(br, rating.of)[j]))
-            out.append(max_check(f"{e.name}.{key}", e.name, rating.quantity, value, limit, basis))
+    for j in range(len(project.elements)):
+        out += element_checks(project, net, br, j)
     index = {n: i for i, n in enumerate(net.nodes)}
     for w in project.limits.nodes:
         v = float(br.node_voltage[index[w.node]])
@@ -135,4 +163,9 @@ def design_checks(project: Project, net: Netlist, br: Branches) -> tuple[Check, 
         if w.max is not None:
             out.append(window_check(f"nodes.{w.node}.max", w.node, "node voltage", v,
                                     float(w.max), "max", "window maximum"))  # fmt: skip
+    for w in project.limits.across:
+        a, b = w.nodes
+        v = float(br.node_voltage[index[a]] - br.node_voltage[index[b]])
+        out.append(range_check(f"across.{w.name}", w.name, "voltage across", v, w.min, w.max,
+                               f"window on V({a}) − V({b})"))  # fmt: skip
     return tuple(out)

@@ -46,6 +46,8 @@ def check_words(cid: str) -> str:
     parts = cid.split(".")
     if parts[0] == "nodes":
         return f"Node {parts[1]} window, {'lower' if parts[2] == 'min' else 'upper'}"
+    if parts[0] == "across":  # a window between two nodes, by its name as written
+        return f"Across {parts[1]}"
     return f"{parts[0]} {parts[1].replace('_', ' ')}"
 
 
