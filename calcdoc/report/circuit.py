@@ -3,12 +3,14 @@ equations in symbols and with values, the matrix A·x = z, the closed form)."""
 
 from __future__ import annotations
 
+from reportlab.graphics.shapes import Drawing, Group
 from reportlab.platypus import Flowable, KeepTogether
 
 from calcdoc.format import eng, number, value_text
 from calcdoc.report import parts
 from calcdoc.report.access import stage
-from calcdoc.report.diagram import LEGEND, DiagramPart, circuit_drawing, connection_rows
+from calcdoc.report.diagram import DiagramPart, circuit_drawing, connection_rows
+from calcdoc.report.diagram import legend as diagram_legend
 from calcdoc.report.equations import closed_form_tex, equation_pieces, tex_quantity, tex_unknown
 from calcdoc.report.layout import Layout
 from calcdoc.report.mathtext import MathLines
@@ -30,6 +32,14 @@ def diagram_parts(p, net=None) -> list[DiagramPart]:
     return out
 
 
+def quarter_turn(d: Drawing) -> Drawing:
+    """The drawing turned a quarter turn clockwise: its node lines run down the sheet (names
+    at the top, the reference at the left) and its element labels read across."""
+    g = Group(*d.contents)
+    g.transform = (0, -1, 1, 0, 0, d.width)
+    return Drawing(d.height, d.width, g)
+
+
 def diagram_section(lay: Layout) -> list[Flowable]:
     r = lay.results
     p = r.project
@@ -40,12 +50,23 @@ def diagram_section(lay: Layout) -> list[Flowable]:
     sub = lay.subsections("diagram")
     drawing = circuit_drawing(parts, p.reference, width=lay.width, max_height=lay.height - 200,
                               font_name=lay.fonts.regular, levels=levels)  # fmt: skip
+    turned = False
+    if drawing is None:  # too wide for the sheet: drawn along the sheet's length, turned
+        wide = circuit_drawing(parts, p.reference, width=lay.height - 60, max_height=lay.width - 10,
+                               font_name=lay.fonts.regular, levels=levels)  # fmt: skip
+        if wide is not None:
+            drawing, turned = quarter_turn(wide), True
     if drawing is not None:
         out.append(lay.paragraph(
             f"Drawn from the project file: each node is a horizontal line (the reference "
             f"{p.reference} at the bottom, higher nominal potentials above), each element a vertical "
-            "branch between its two nodes.", "small"))  # fmt: skip
-        out.append(lay.keep_together([drawing, *lay.bullets(LEGEND, "small")]))
+            "branch between its two nodes."
+            + (" Turned a quarter turn to fit the sheet: the node lines run down the sheet, named "
+               "at the top, the reference at the left, higher potentials to the right."
+               if turned else ""), "small"))  # fmt: skip
+        legend = lay.bullets(diagram_legend(parts, turned), "small")
+        # a turned drawing fills a sheet of its own; its legend follows it
+        out += [drawing, *legend] if turned else [lay.keep_together([drawing, *legend])]
     else:
         out.append(lay.paragraph(
             f"The circuit has {len(parts)} elements, too many for a readable drawing on one sheet; "

@@ -47,13 +47,27 @@ LEGEND = (
     "Horizontal line: a node, named at its left end; the ground symbol marks the reference node.",
     "Dot: a junction where conductors join. A line that passes a gap in another line does not "
     "join it.",
-    "Rectangle: resistor. Circle with + and −: voltage source (+ at terminal a). Circle with an "
-    "arrow: current source, the arrow pointing from a to b. Diamond: dependent source.",
     "Dashed line: a dependent source's control, which carries no current: from taps on two nodes "
     "(marked + and −) or from a ring on the wire of the element whose current controls it.",
     "Labels give the element's name and value; a dependent source's label gives gain × control, "
     "where V(y,x) means V(y) − V(x) and I(R1) the current through R1 from its a to its b terminal.",
 )
+
+
+def legend(parts: Sequence[DiagramPart], turned: bool = False) -> list[str]:
+    """The legend of a drawing: the general lines, then one line per symbol drawn."""
+    from calcdoc.report.symbols import WORDS
+
+    general = list(LEGEND)
+    if turned:
+        general[0] = (
+            "Vertical line: a node, named at its top end; the ground symbol marks the reference "
+            "node (the drawing is turned a quarter turn)."
+        )
+    drawn = dict.fromkeys(p.drawing or (KINDS[p.kind].drawing if p.kind in KINDS else "box")
+                          for p in parts)  # fmt: skip
+    symbols = list(dict.fromkeys(WORDS.get(d, WORDS["box"]) for d in drawn))
+    return [*general[:2], *symbols, *general[2:]]
 
 
 @dataclass(frozen=True)
@@ -209,6 +223,8 @@ def circuit_drawing(
             if width_of(c.lines) > room and " × " in value:
                 gain, _, ctl = value.partition(" × ")
                 c.lines = [name, gain + " ×", ctl]
+            if width_of(c.lines) > room and ", " in value:  # one threshold or state a line
+                c.lines = [name, *value.split(", ")]
             if width_of(c.lines) > room:
                 return None
     # column positions: each column leaves room for its own label before the next

@@ -200,6 +200,23 @@ SYMBOLS: dict[str, Callable[..., Group]] = {
 }
 """Drawing name (the element table's ``drawing`` or a chosen ``symbol``) → function."""
 
+WORDS: dict[str, str] = {
+    "resistor": "Rectangle: resistor (or an element without a symbol of its own).",
+    "box": "Rectangle: resistor (or an element without a symbol of its own).",
+    "voltage_source": "Circle with + and −: voltage source (+ at terminal a).",
+    "current_source": "Circle with an arrow: current source, the arrow pointing from a to b.",
+    "dependent_voltage": "Diamond with + and −: dependent voltage source (+ at terminal a).",
+    "dependent_current": "Diamond with an arrow: dependent current source, from a to b.",
+    "diode": "Triangle and bar: diode, conducting from the anode (triangle) to the cathode (bar).",
+    "zener": "Triangle and bent bar: zener diode, which also conducts in reverse at its breakdown voltage.",
+    "led": "Diode with two arrows: light-emitting diode.",
+    "contact": "Blade: switch or relay contact, drawn open or closed as in the nominal case.",
+    "capacitor": "Two plates: capacitor (open at DC).",
+    "coil": "Row of half-turns: coil (a short through its winding resistance at DC).",
+    "opamp": "Triangle: ideal operational amplifier, inputs marked + and −, output at the tip.",
+}
+"""What each symbol means, for the diagram's legend (only the symbols drawn are listed)."""
+
 
 def part_label(element, state: str, value: str) -> str:
     """The text beside a part: its value, and what a symbol alone does not say
@@ -223,4 +240,4 @@ def part_label(element, state: str, value: str) -> str:
     return value
 
 
-__all__ = ["SYMBOLS", "part_label"]
+__all__ = ["SYMBOLS", "WORDS", "part_label"]
