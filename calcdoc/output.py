@@ -178,6 +178,21 @@ class Terminal:
                     f"{len(s.unknowns)} unknowns, {s.method}; relative residual {s.residual:.1e}, "
                     f"condition {s.condition:.3g}, estimated error {s.error_estimate:.1e}"
                 )
+            if r.states is not None:
+                st = r.states
+                tight = min(
+                    ((d.element, t) for d in st.devices for t in d.tests), key=lambda x: x[1].margin,
+                    default=None,
+                )  # fmt: skip
+                held = "every device's test holds" if st.holds else "a device's test FAILS"
+                line = (
+                    f"States: {st.method}, {st.iterations} pivots over {st.pieces} pieces; {held}"
+                )
+                if tight is not None:
+                    unit = "A" if tight[1].quantity == "current" else "V"
+                    line += (f" (smallest margin {tight[0]} {tight[1].text} by "
+                             f"{self.eng(tight[1].margin, unit, 3)})")  # fmt: skip
+                self.line(line)
             for w in s.warnings:
                 self.warning(w)
             self.line()
@@ -187,11 +202,14 @@ class Terminal:
             ]
             self._rows(["node", "voltage"], rows, limit_rows)
             self.line()
+            absent = set(net.absent)
             rows = [
                 (
                     name,
-                    net.types[j].replace("_", " "),
-                    value_text(KINDS[net.types[j]].main.unit, float(net.values[j]), sig),
+                    net.types[j].replace("_", " ") + (f" ({net.state(j)})" if net.state(j) else ""),
+                    "—"
+                    if (j, KINDS[net.types[j]].main.name) in absent
+                    else value_text(KINDS[net.types[j]].main.unit, float(net.values[j]), sig),
                     self.eng(br.voltage[j], "V", sig),
                     self.eng(br.current[j], "A", sig),
                     self.eng(br.power[j], "W", sig),
