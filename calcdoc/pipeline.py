@@ -14,12 +14,9 @@ from pathlib import Path
 from typing import Any
 
 from calcdoc.errors import SingularCircuitError
-from calcdoc.mna.branches import branches
 from calcdoc.mna.netlist import netlist
-from calcdoc.mna.proof import device_states, repair
-from calcdoc.mna.solve import solve
+from calcdoc.mna.proof import solve_in_states
 from calcdoc.mna.stamps import structure
-from calcdoc.mna.states import find_states, searched
 from calcdoc.model.derating import tcr_value
 from calcdoc.model.history import history_findings
 from calcdoc.model.project import Case, Project
@@ -58,37 +55,11 @@ def solve_case(
     vals = dict(values) if values is not None else operating_values(project, case)
     states = {s.target: s.text for s in case.settings if s.state} if case else None
     net = netlist(project, vals, states)
-    found = None
-    repairs = 0
     try:
-        if searched(net):  # diodes: find the states in which every device's test holds
-            found = find_states(net)
-            net = replace(net, states=found.states)
-        sol = solve(net)
-        br = branches(net, sol)
-        while found is not None and repairs < len(net.names):
-            fixed = repair(
-                net, br
-            )  # a device within rounding of a threshold, on the exact solution
-            if fixed is None:
-                break
-            net, repairs = fixed, repairs + 1
-            sol = solve(net)
-            br = branches(net, sol)
+        net, sol, br, proof = solve_in_states(net)
     except SingularCircuitError as exc:
         exc.case = name  # type: ignore[attr-defined]
         raise
-    proof = device_states(net, br, found, repairs) if found is not None else None
-    if proof is not None and not proof.holds:
-        bad = [d.element for d in proof.devices if not d.holds]
-        exc = SingularCircuitError(
-            "no consistent states",
-            f"the states found for {', '.join(bad)} fail their own tests on the solution "
-            "(the circuit is too close to a threshold for the rounding of the solve)",
-            bad,
-        )
-        exc.case = name  # type: ignore[attr-defined]
-        raise exc
     st = structure(net)
     # the symbols' values, for the printed equations and the closed form (kept when they are)
     keep = sol.formulation is not None

@@ -111,3 +111,57 @@ def repair(net: Netlist, br: Branches) -> Netlist | None:
 
 
 __all__ = ["device_states", "repair"]
+
+
+def solve_in_states(net: Netlist):
+    """Solve a netlist, its piecewise-linear devices in the states their tests confirm.
+
+    Without such devices this is :func:`calcdoc.mna.solve.solve` and
+    :func:`calcdoc.mna.branches.branches`.  With them the states are found
+    (:func:`calcdoc.mna.states.find_states`), the circuit is solved in them,
+    a device within rounding of a threshold is moved by its failing test
+    (on the exact solution where there is one), and the tests of every
+    device are proved on the final solution.
+
+    Returns
+    -------
+    (Netlist, Solution, Branches, StateSearch or None)
+
+    Raises
+    ------
+    SingularCircuitError
+        Also ``"no consistent states"``, naming the devices whose tests fail.
+    """
+    from dataclasses import replace
+
+    from calcdoc.errors import SingularCircuitError
+    from calcdoc.mna.branches import branches
+    from calcdoc.mna.solve import solve
+    from calcdoc.mna.states import find_states, searched
+
+    found = None
+    if searched(net):
+        found = find_states(net)
+        net = replace(net, states=found.states)
+    sol = solve(net)
+    br = branches(net, sol)
+    repairs = 0
+    while found is not None and repairs < len(net.names):
+        fixed = repair(net, br)
+        if fixed is None:
+            break
+        net, repairs = fixed, repairs + 1
+        sol = solve(net)
+        br = branches(net, sol)
+    if found is None:
+        return net, sol, br, None
+    proof = device_states(net, br, found, repairs)
+    if not proof.holds:
+        bad = [d.element for d in proof.devices if not d.holds]
+        raise SingularCircuitError(
+            "no consistent states",
+            f"the states found for {', '.join(bad)} fail their own tests on the solution "
+            "(the circuit is too close to a threshold for the rounding of the solve)",
+            bad,
+        )
+    return net, sol, br, proof
