@@ -8,7 +8,6 @@ from typing import Any
 
 from calcdoc.errors import Fault, ProjectError
 
-TEMPLATES = Path(__file__).resolve().parents[2] / "templates"
 SECTIONS = ("diagram", "closed_form", "matrix", "power_chart", "input_listing", "versions")
 COLOURS = ("accent", "shade", "fail", "fail_fill", "pass", "mark")
 
@@ -39,7 +38,10 @@ def _fault(path: str, msg: str, file: str) -> ProjectError:
 
 
 def load_style(name: str, base_dir: Path | None = None) -> Style:
-    """Read a report style by name (``templates/NAME.toml``) or path.
+    """Read a report style by name or path.
+
+    A name is looked up in ``templates/NAME.toml`` beside the project, then
+    among the styles shipped with calcdoc (:func:`calcdoc.fileio.shipped`).
 
     Raises
     ------
@@ -48,6 +50,8 @@ def load_style(name: str, base_dir: Path | None = None) -> Style:
     """
     import tomli
 
+    from calcdoc.fileio import shipped
+
     candidates = []
     p = Path(name)
     if p.suffix == ".toml":
@@ -55,12 +59,10 @@ def load_style(name: str, base_dir: Path | None = None) -> Style:
     else:
         candidates += [
             (base_dir or Path.cwd()) / "templates" / f"{name}.toml",
-            TEMPLATES / f"{name}.toml",
+            shipped(f"{name}.toml"),
         ]
     path = next((c for c in candidates if c.is_file()), None)
     if path is None:
-        if name == "standard":
-            return Style()
         raise _fault(
             "report.template",
             f"no report style {name!r} (looked in {', '.join(map(str, candidates))})",
