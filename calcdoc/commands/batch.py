@@ -229,9 +229,14 @@ class _Display:
 
     def _show(self) -> None:
         if self.live:
+            import shutil
+
             now = ", ".join(Path(p).name for p in self.building)
-            self.term.progress(f"{self.done}/{self.total} records, {self._elapsed()} elapsed"
-                               + (f"; building {now}" if now else ""))  # fmt: skip
+            text = f"{self.done}/{self.total} records, {self._elapsed()} elapsed" + (
+                f"; building {now}" if now else ""
+            )
+            width = shutil.get_terminal_size().columns - 1  # one line, never wrapped
+            self.term.progress(text if len(text) <= width else text[: width - 1] + "…")
 
     def started(self, project: str) -> None:
         self.building.append(project)

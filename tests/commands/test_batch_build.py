@@ -21,7 +21,16 @@ from pathlib import Path
 
 import pytest
 import tomli
-from command_helpers import DEMO, DEMOS, DIVIDER, ROOT, calcdoc_cmd, partial_files, run_calcdoc
+from command_helpers import (
+    DEMO,
+    DEMOS,
+    DIVIDER,
+    ROOT,
+    calcdoc_cmd,
+    partial_files,
+    run_calcdoc,
+    unprivileged,
+)
 from pypdf import PdfReader
 
 BROKEN = '[elements.R1\ntype = "resistor"\n'  # a TOML syntax error on line 1
@@ -177,6 +186,23 @@ def test_single_file_options_are_refused_for_a_set(tmp_path):
     empty.mkdir()
     proc = run_calcdoc("build", empty)
     assert proc.returncode == 2 and "no project files" in proc.stderr
+    proc = run_calcdoc("build", tmp_path, "-j", "0")
+    assert proc.returncode == 2 and "at least 1" in proc.stderr
+
+
+def test_register_folder_that_cannot_be_written_is_refused_first(tmp_path):
+    shutil.copy(DEMO, tmp_path / "one.toml")
+    tmp_path.chmod(0o555)
+    try:
+        proc = run_calcdoc("build", tmp_path, prefix=unprivileged())
+    finally:
+        tmp_path.chmod(0o755)
+    assert proc.returncode == 2 and "Traceback" not in proc.stderr
+    assert proc.stderr.strip() == (
+        f"calcdoc: error: {tmp_path / 'register.pdf'}: cannot write the output: "
+        f"the folder {tmp_path} is not writable"
+    )
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["one.toml"]  # nothing was built
 
 
 # ---------------------------------------------------------------- --changed
