@@ -207,6 +207,8 @@ def _earlier_package(project, source: Path) -> str | None:
         return None
     rev = max(earlier, key=revision_key)
     path = default_output(replace(project, document=replace(d, revision=rev)), source)
+    if path == default_output(project, source):  # unnumbered: every revision has one name
+        return None
     return str(path) if path.is_file() else None
 
 
@@ -294,8 +296,9 @@ def _outcome(
 
 def failed(path: str, message: str) -> RecordOutcome:
     """The outcome of a record that was not built (the input's SHA-256 when readable)."""
-    try:
-        sha = hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    try:  # a regular file only: never a device or pipe that could block or never end
+        source = Path(path)
+        sha = hashlib.sha256(source.read_bytes()).hexdigest() if source.is_file() else ""
     except OSError:
         sha = ""
     return RecordOutcome(project=str(path), status=2, action="not built", message=message,
