@@ -20,6 +20,7 @@ from __future__ import annotations
 import argparse
 import os
 import re
+import resource
 import shutil
 import statistics
 import subprocess
@@ -32,12 +33,20 @@ ROOT = Path(__file__).resolve().parent.parent
 DEMOS = sorted((ROOT / "projects").glob("*.toml"))
 
 
+CPU = {"last": 0.0}  # CPU seconds (user + system) of the last run, its worker processes included
+
+
 def wall(args: list[str], cwd: Path) -> float:
+    """Wall time of ``calcdoc ARGS``; its CPU time is left in ``CPU["last"]``."""
     env = dict(os.environ, PYTHONPATH=str(ROOT))
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t = time.perf_counter()
     subprocess.run([sys.executable, "-m", "calcdoc", *args], cwd=cwd, env=env, check=False,
                    stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)  # fmt: skip
-    return time.perf_counter() - t
+    elapsed = time.perf_counter() - t
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    CPU["last"] = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    return elapsed
 
 
 def main() -> None:
@@ -48,13 +57,17 @@ def main() -> None:
     cpus = len(os.sched_getaffinity(0))
     with tempfile.TemporaryDirectory() as tmp:
         work = Path(tmp)
+        print(f"{cpus} CPUs; load average {os.getloadavg()[0]:.2f} at the start")
         singles = {}
         for demo in DEMOS:
-            times = [wall(["build", str(demo), "-o", str(work / "one.pdf"), "-q"], work)
-                     for _ in range(opts.repeat)]  # fmt: skip
+            times, cpu = [], []
+            for _ in range(opts.repeat):
+                times.append(wall(["build", str(demo), "-o", str(work / "one.pdf"), "-q"], work))
+                cpu.append(CPU["last"])
             singles[demo.stem] = statistics.median(times)
             print(f"single build {demo.stem:18s} median {singles[demo.stem]:.2f} s "
-                  f"(min {min(times):.2f}, max {max(times):.2f}; imports included)")  # fmt: skip
+                  f"(min {min(times):.2f}, max {max(times):.2f}; imports included; "
+                  f"CPU {statistics.median(cpu):.2f} s)")  # fmt: skip
         one = statistics.median(singles.values())
         folder = work / "set"
         folder.mkdir()
@@ -65,15 +78,18 @@ def main() -> None:
                           flags=re.MULTILINE)  # fmt: skip
             (folder / f"record_{i + 1:03d}.toml").write_text(text, encoding="utf-8")
         batch = wall(["build", str(folder), "-j", str(cpus), "-q"], work)
+        batch_cpu = CPU["last"]
         target = 1.3 * one * opts.records / cpus
         print(f"set of {opts.records} records, -j {cpus}: {batch:.1f} s; ideal "
               f"{one * opts.records / cpus:.1f} s, target {target:.1f} s "
-              f"({batch / (one * opts.records / cpus):.2f} x ideal)")  # fmt: skip
+              f"({batch / (one * opts.records / cpus):.2f} x ideal); CPU {batch_cpu:.1f} s, "
+              f"{batch_cpu / opts.records:.2f} s a record")  # fmt: skip
         serial = wall(["build", str(folder), "-j", "1", "-q"], work)
         print(f"same set, -j 1: {serial:.1f} s ({serial / opts.records:.2f} s a record, "
               f"speed-up with -j {cpus}: {serial / batch:.2f})")  # fmt: skip
         skipped = wall(["build", str(folder), "--changed", "-q"], work)
         print(f"same set, --changed, nothing changed: {skipped:.1f} s")
+        print(f"load average {os.getloadavg()[0]:.2f} at the end")
         shutil.rmtree(folder)
 
 
