@@ -217,12 +217,23 @@ import os, signal, sys
 point, signame, project, out = sys.argv[1:5]
 sig = getattr(signal, signame)
 real = getattr(os, point)
+folder = os.path.dirname(out)
 
 def stop_here(*args, **kw):
+    partial = [n for n in os.listdir(folder) if n.endswith(".calcdoc-partial")]
+    sys.stderr.write("partial at the stop: " + ",".join(partial) + "\\n")
+    sys.stderr.flush()
     os.kill(os.getpid(), sig)
     return real(*args, **kw)
 
-setattr(os, point, stop_here)
+import calcdoc.fileio as fileio  # the signal is sent only from inside the package write
+write = fileio.write_atomic
+
+def write_and_stop(*args, **kw):
+    setattr(os, point, stop_here)
+    return write(*args, **kw)
+
+fileio.write_atomic = write_and_stop
 from calcdoc.cli import main
 sys.exit(main(["build", project, "-o", out, "-q"]))
 """
@@ -245,7 +256,9 @@ def test_stop_at_each_step_of_the_write(tmp_path, project, point, signame):
         assert proc.returncode not in (0, 1) and "Traceback" not in proc.stderr
     else:  # ended by the signal, as the sender asked
         assert proc.returncode == -getattr(signal, signame)
-    assert partial_files(tmp_path) == []
+    stops = [ln for ln in proc.stderr.splitlines() if ln.startswith("partial at the stop: ")]
+    assert len(stops) == 1 and stops[0].endswith(".calcdoc-partial")  # it existed then
+    assert partial_files(tmp_path) == []  # and is gone now
     assert out.read_bytes() == b"%PDF- the earlier package"
 
 
