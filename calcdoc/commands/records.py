@@ -184,9 +184,26 @@ def unchanged_outcome(project, out: Path, warnings: list[str]) -> RecordOutcome 
         warnings.append(f"{out}: the existing package cannot be read ({exc}); rebuilt")
         return None
     version = (doc.get("tool") or {}).get("version")
-    if hashlib.sha256(source).hexdigest() != project.sha256 or version != __version__:
+    if hashlib.sha256(source).hexdigest() != project.sha256:
+        _replacing_same_revision(source, out, project, warnings)
+        return None
+    if version != __version__:
         return None
     return _outcome(project.path, project, "unchanged", doc, out, pdf, warnings, "")
+
+
+def _replacing_same_revision(source: bytes, out: Path, project, warnings: list[str]) -> None:
+    """Warn when a package is about to be replaced by one of the same revision with other inputs."""
+    import calcdoc
+    from calcdoc.record.history import same_revision_warning
+
+    try:
+        before = calcdoc.loads(source, f"{out}:input")
+    except CalcdocError:
+        return
+    warning = same_revision_warning(before, project, inputs_changed=True)
+    if warning:
+        warnings.append(warning)
 
 
 def _earlier_package(project, source: Path) -> str | None:

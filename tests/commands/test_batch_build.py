@@ -344,3 +344,13 @@ def test_stopping_a_set_stops_its_workers_and_leaves_no_partial_file(tmp_path, s
     assert workers and not any(_alive(w) for w in workers)
     assert partial_files(tmp_path) == []
     assert not (tmp_path / "register.csv").exists()
+
+
+def test_changed_warns_when_a_revision_is_replaced_by_other_inputs(tmp_path):
+    supply = tmp_path / "supply.toml"
+    shutil.copy(DEMO, supply)
+    assert run_calcdoc("build", supply, "-q").returncode == 0
+    supply.write_text(supply.read_text().replace('value = "4k7"', 'value = "5k6"'))
+    proc = run_calcdoc("build", supply, "--changed", "-q")
+    assert proc.returncode == 0 and "wrote" in proc.stdout  # rebuilt, as asked
+    assert "warning" in proc.stderr and "revision is still 'B'" in proc.stderr
