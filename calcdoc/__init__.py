@@ -11,9 +11,33 @@ results and write the calculation package::
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import TYPE_CHECKING
 
-__version__ = "0.1.0"
+
+def _version() -> str:
+    """The version named once, in pyproject.toml: read from the installed metadata.
+
+    A source checkout put on ``sys.path`` without installing (``PYTHONPATH``)
+    reads the same line from its own pyproject.toml, so the version printed
+    is always that of the code that runs.
+    """
+    checkout = Path(__file__).resolve().parent.parent / "pyproject.toml"
+    if checkout.is_file():
+        import tomli
+
+        project = tomli.loads(checkout.read_text(encoding="utf-8")).get("project", {})
+        if project.get("name") == "calcdoc" and "version" in project:
+            return str(project["version"])
+    from importlib import metadata
+
+    try:
+        return metadata.version("calcdoc")
+    except metadata.PackageNotFoundError:  # pragma: no cover - neither installed nor a checkout
+        return "0+unknown"
+
+
+__version__ = _version()
 
 if TYPE_CHECKING:  # pragma: no cover
     from calcdoc.model.project import Project

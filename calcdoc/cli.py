@@ -1,4 +1,4 @@
-"""Command line: ``calcdoc build | solve | check | diff | verify``.
+"""Command line: ``calcdoc build | new | solve | check | diff | verify``.
 
 Each command is a few lines in :mod:`calcdoc.commands`; this module only
 parses arguments and maps errors to exit status (0 done, 1 a check or
@@ -18,6 +18,32 @@ from calcdoc import __version__
 
 EXIT_OK, EXIT_FAIL, EXIT_INPUT = 0, 1, 2
 EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report a command stopped by Ctrl-C
+RESULT_LIBRARIES = ("numpy", "scipy", "sympy", "reportlab")  # the libraries that shape results
+
+
+def version_text() -> str:
+    """calcdoc's version, then those of the libraries that shape the results."""
+    import platform
+    from importlib import metadata
+
+    libs = []
+    for lib in RESULT_LIBRARIES:
+        try:
+            libs.append(f"{lib} {metadata.version(lib)}")
+        except metadata.PackageNotFoundError:
+            libs.append(f"{lib} not installed")
+    return f"calcdoc {__version__}\n{', '.join(libs)}; Python {platform.python_version()}"
+
+
+class _VersionAction(argparse.Action):
+    """``--version``: looks the library versions up only when asked."""
+
+    def __init__(self, option_strings, dest=argparse.SUPPRESS, help=None):  # noqa: A002
+        super().__init__(option_strings, dest, nargs=0, default=argparse.SUPPRESS, help=help)
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        sys.stdout.write(version_text() + "\n")
+        parser.exit()
 
 
 def parser() -> argparse.ArgumentParser:
@@ -26,11 +52,20 @@ def parser() -> argparse.ArgumentParser:
         description="Calculation records for linear DC circuits, from one TOML project file.",
         epilog="Exit status: 0 done, 1 a check or verification failed, 2 bad input.",
     )
-    ap.add_argument("--version", action="version", version=f"calcdoc {__version__}")
+    ap.add_argument("--version", action=_VersionAction,
+                    help="show the version of calcdoc and of the libraries that shape the results")  # fmt: skip
     sub = ap.add_subparsers(dest="command", metavar="COMMAND", required=True)
 
-    b = sub.add_parser("build", help="write the PDF calculation package")
-    b.add_argument("file", help="project file (.toml)")
+    b = sub.add_parser(
+        "build",
+        help="write the PDF calculation package (or a set of them, with a register)",
+        description="Write the calculation package of a project file. Given several project "
+        "files or a folder (its *.toml files), build every record in parallel, each package at "
+        "its default name beside its project, and write register.pdf and register.csv into the "
+        "folder (the current folder for a list of files).",
+    )
+    b.add_argument("file", metavar="FILE|FOLDER", help="project file (.toml), or a folder")
+    b.add_argument("more", nargs="*", metavar="FILE", help="more project files (a set of records)")
     b.add_argument(
         "-o", "--output", help="package path (default: NUMBER-revREV.pdf beside the project)"
     )
@@ -38,11 +73,24 @@ def parser() -> argparse.ArgumentParser:
         "--previous", metavar="OLD", help="earlier package (.pdf) or project file to compare with"
     )
     b.add_argument(
+        "--strict", action="store_true", help="refuse a previous revision of another document"
+    )
+    b.add_argument(
         "--sign",
         metavar="KEY.p12",
         help="sign with this PKCS#12 key (password from CALCDOC_KEY_PASSWORD)",
     )
+    b.add_argument(
+        "--changed",
+        action="store_true",
+        help="skip a record whose package embeds the same input and calcdoc version",
+    )
+    b.add_argument("-j", "--jobs", type=_jobs, metavar="N",
+                   help="records built at once (default: the number of CPUs)")  # fmt: skip
     b.add_argument("-q", "--quiet", action="store_true", help="no progress display")
+
+    n = sub.add_parser("new", help="write a starter project (never overwrites)")
+    n.add_argument("file", help="project file to create (.toml)")
 
     s = sub.add_parser("solve", help="print the results (tables, or JSON)")
     s.add_argument("file", help="project file (.toml)")
@@ -63,6 +111,16 @@ def parser() -> argparse.ArgumentParser:
                    help="trusted signer or CA certificate (repeatable)")  # fmt: skip
     v.add_argument("--json", action="store_true", help="print the findings as JSON")
     return ap
+
+
+def _jobs(text: str) -> int:
+    try:
+        n = int(text)
+    except ValueError:
+        n = 0
+    if n < 1:
+        raise argparse.ArgumentTypeError(f"expected a whole number of at least 1, not {text!r}")
+    return n
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -1,4 +1,9 @@
-"""``calcdoc build FILE [-o OUT.pdf] [--previous OLD] [--sign KEY.p12]``: write the package."""
+"""``calcdoc build``: one package, or a set of records and their register.
+
+``calcdoc build FILE [-o OUT.pdf] [--previous OLD] [--strict] [--sign KEY.p12] [--changed]``
+writes one package; ``calcdoc build FILE FILE... | FOLDER [-j N] [--changed]``
+builds every project given (see :mod:`calcdoc.commands.batch`).
+"""
 
 from __future__ import annotations
 
@@ -7,52 +12,48 @@ import os
 import sys
 from pathlib import Path
 
-import calcdoc
+from calcdoc.commands.records import RecordJob, Signer, make_record
 from calcdoc.errors import CalcdocError
-from calcdoc.fileio import write_atomic
 
 
 def run(args, term) -> int:
-    from calcdoc.pipeline import analyse
-    from calcdoc.record.rebuild import render_package
-    from calcdoc.report.package import default_output
+    paths = [args.file, *args.more]
+    if len(paths) > 1 or Path(args.file).is_dir():
+        single_only = [
+            flag
+            for flag, given in (("-o", args.output), ("--previous", args.previous),
+                                ("--sign", args.sign))
+            if given
+        ]  # fmt: skip
+        if single_only:
+            raise CalcdocError(
+                f"{', '.join(single_only)}: for one project file only; a set of records writes "
+                "each package at its default name beside its project"
+            )
+        from calcdoc.commands.batch import run_batch
 
+        return run_batch(
+            paths, jobs=args.jobs, changed=args.changed, strict=args.strict, term=term,
+            quiet=args.quiet,
+        )  # fmt: skip
+    job = RecordJob(args.file, args.output, args.previous, args.strict, args.changed)
     show = None if args.quiet else term.progress
-    project = calcdoc.load(args.file)
-    results = analyse(project, closed_form=True)
-    before, comparison = _previous(args.previous, results, term) if args.previous else (None, None)
-    package = render_package(
-        project, previous=before, progress=show, results=results, comparison=comparison
-    )
-    pdf = package.pdf
-    if args.sign:
-        pdf = _sign(pdf, package.signature_box, Path(args.sign), project, show)
+    outcome = make_record(job, progress=show, sign=_signer(Path(args.sign)) if args.sign else None)
     term.progress_done()
-    for warning in package.warnings:
+    for warning in outcome.warnings:
         term.warning(warning)
-    for note in results.notes:
-        if note.startswith("Revision history"):
-            term.warning(note)
-    out = Path(args.output) if args.output else default_output(project, Path(args.file))
-    write_atomic(out, pdf)
-    term.line(f"wrote {out} ({len(pdf)} bytes)")
-    return 0
+    if outcome.action == "unchanged":
+        term.line(f"{outcome.package}: unchanged (same input, same calcdoc version); not rebuilt")
+    else:
+        term.line(f"wrote {outcome.package} ({outcome.package_bytes} bytes)")
+    return outcome.status
 
 
-def _previous(path: str, results, term):
-    """The earlier revision (a package or a project file) and the comparison with it."""
-    from calcdoc.model.history import same_revision_warning
-    from calcdoc.pipeline import analyse
-    from calcdoc.record.compare import compare
-    from calcdoc.record.package import baseline
+def _signer(key: Path) -> Signer:
+    def sign(pdf: bytes, box, project, progress) -> bytes:
+        return _sign(pdf, box, key, project, progress)
 
-    before = baseline(path)
-    comparison = compare(analyse(before), results)
-    inputs_changed = any(c.section != "input file" for c in comparison.inputs)
-    warning = same_revision_warning(before, results.project, inputs_changed)
-    if warning:
-        term.warning(warning)
-    return before, comparison
+    return sign
 
 
 def _sign(pdf: bytes, box, key: Path, project, progress) -> bytes:

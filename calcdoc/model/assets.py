@@ -29,6 +29,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from calcdoc.errors import Fault, ProjectError
+from calcdoc.fileio import shipped
 
 if TYPE_CHECKING:  # pragma: no cover
     from calcdoc.model.project import Project
@@ -36,7 +37,7 @@ if TYPE_CHECKING:  # pragma: no cover
 IMAGE_BYTES = 4 * 1024 * 1024  # seal and logo files
 IMAGE_PIXELS = 16_000_000  # width × height of a seal or logo
 STYLE_BYTES = 64 * 1024  # report style (template) files
-STYLES = Path(__file__).resolve().parents[2] / "templates"  # the installed report styles
+STYLES = shipped("standard.toml").parent  # the installed report styles (package data)
 
 SECTIONS = ("diagram", "closed_form", "matrix", "power_chart", "input_listing", "versions")
 COLOURS = ("accent", "shade", "fail", "fail_fill", "pass", "mark")
@@ -161,14 +162,14 @@ def _inside(path: Path, folder: Path) -> bool:
     return True
 
 
-def style_file(name: str, project_dir: Path, file: str) -> Path | None:
+def style_file(name: str, project_dir: Path, file: str) -> Path:
     """Where the report style ``name`` is: the one lookup of styles by name or path.
 
     A name (``"compact"``) is looked for as ``templates/NAME.toml`` in the
     project's folder, then among the installed styles; a path ending in
     ``.toml`` is relative to the project's folder.  Either must stay inside
-    the project's folder or the installed styles.  Returns None for the
-    built-in ``standard`` style when no file defines it.
+    the project's folder or the installed styles.  Every style, ``standard``
+    included, must be found: a missing one is an error, never a silent default.
 
     Raises
     ------
@@ -197,12 +198,12 @@ def style_file(name: str, project_dir: Path, file: str) -> Path | None:
         )
     candidates = [project_dir / "templates" / f"{name}.toml", STYLES / f"{name}.toml"]
     found = next((c for c in candidates if c.exists()), None)
-    if found is None and name != "standard":
+    if found is None:  # "standard" included: a missing style is an error, never a silent default
         installed = sorted(p.stem for p in STYLES.glob("*.toml") if p.stem != "starter")
         raise _fail(
             "report.template",
-            f"no template {name!r} (installed: {', '.join(installed) or 'none'}; or give a "
-            "path ending in .toml)",
+            f"no report style {name!r} (installed: {', '.join(installed) or 'none'}; or give "
+            "a path ending in .toml)",
             file,
         )
     return found
@@ -276,8 +277,6 @@ def load_style(name: str, project_dir: Path, file: str) -> Style:
     import tomli
 
     path = style_file(name, project_dir, file)
-    if path is None:
-        return Style()
     text = read_limited(path, STYLE_BYTES, "report.template", file, "template")
     try:
         data = tomli.loads(text.decode("utf-8"))

@@ -15,7 +15,7 @@ from calcdoc import __version__
 from calcdoc.report.layout import NBSP, Layout
 from calcdoc.report.text import printable
 
-LIBRARIES = ("numpy", "scipy", "sympy", "pint", "networkx", "reportlab", "matplotlib", "pypdf",
+LIBRARIES = ("numpy", "scipy", "sympy", "pint", "reportlab", "matplotlib", "pypdf",
              "tomli", "pyHanko")  # fmt: skip
 
 
