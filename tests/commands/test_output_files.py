@@ -216,6 +216,8 @@ STOP_SCRIPT = """
 import os, signal, sys
 point, signame, project, out = sys.argv[1:5]
 sig = getattr(signal, signame)
+if sig != signal.SIGINT:  # as from a shell, whatever this run inherited (nohup ignores SIGHUP)
+    signal.signal(sig, signal.SIG_DFL)
 real = getattr(os, point)
 folder = os.path.dirname(out)
 
