@@ -117,6 +117,35 @@ def check_set(results: Any) -> tuple[CheckRow, ...]:
     return tuple(out)
 
 
+@dataclass(frozen=True)
+class RecordedCheck:
+    """A check as a results object records it (``id``, ``utilization``, ``status``)."""
+
+    id: str
+    utilization: float | None
+    status: str
+
+    @property
+    def passed(self) -> bool:
+        return self.status == "pass"
+
+
+def document_check_set(doc: dict[str, Any]) -> tuple[CheckRow, ...]:
+    """The same set read from a results object (``calcdoc solve --json``, a package's
+    embedded ``results.json``): each case's ``checks``, then its ``tolerance.checks``."""
+
+    def recorded(c: dict[str, Any]) -> RecordedCheck:
+        return RecordedCheck(c["id"], c.get("utilization"), c.get("status", ""))
+
+    out: list[CheckRow] = []
+    for case in doc.get("cases", []):
+        out += [CheckRow(case["name"], VALUES, recorded(c)) for c in case.get("checks", [])]
+        tol = case.get("tolerance") or {}
+        out += [CheckRow(case["name"], TOLERANCE, recorded(c), tol.get("method", ""))
+                for c in tol.get("checks", [])]  # fmt: skip
+    return tuple(out)
+
+
 def summarise(rows: Sequence[CheckRow], cases: int) -> CheckSummary:
     """Failing rows and the worst utilization over ``rows``.
 

@@ -284,22 +284,18 @@ def signoff_status(project) -> str:
 def check_figures(doc: dict[str, Any]) -> tuple[int, int, float | None, str]:
     """Checks run, checks failing, worst utilisation and where, from a results object.
 
-    Counted as ``calcdoc check`` counts them: every check of every case is
-    run; a failure is a failing check of a case or at a tolerance extreme.
+    Counted over the one check set (:mod:`calcdoc.checkset`) that the package's
+    cover and ``calcdoc check`` count over: every check of every case, each
+    also at its tolerance worst case.
     """
-    run = failing = 0
-    worst: float | None = None
+    from calcdoc.checkset import TOLERANCE, document_check_set, summarise
+
+    s = summarise(document_check_set(doc), len(doc.get("cases", [])))
     where = ""
-    for case in doc.get("cases", []):
-        for c in case.get("checks", []):
-            run += 1
-            failing += c.get("status") == "fail"
-            u = c.get("utilization")
-            if u is not None and (worst is None or u > worst):
-                worst, where = u, f"{c['id']} [{case['name']}]"
-        tol = case.get("tolerance") or {}
-        failing += sum(c.get("status") == "fail" for c in tol.get("checks", []))
-    return run, failing, worst, where
+    if s.worst is not None:
+        at = ", tolerance worst case" if s.worst.scope == TOLERANCE else ""
+        where = f"{s.worst.check.id} [{s.worst.case}{at}]"
+    return s.count, len(s.failed), s.worst.utilization if s.worst else None, where
 
 
 def _outcome(

@@ -87,3 +87,19 @@ def test_a_failure_only_at_the_worst_case_fails_the_check_command(tmp_path, caps
         in out
     )
     assert "Worst utilisation: 101.2 %" in out  # 105.26 mW / 104 mW
+
+
+@pytest.mark.parametrize("demo", sorted(p.stem for p in (ROOT / "projects").glob("*.toml")))
+def test_the_set_read_from_the_json_counts_the_same(demo):
+    from calcdoc.checkset import check_summary, document_check_set, summarise
+
+    results = calcdoc.solve(calcdoc.load(ROOT / "projects" / f"{demo}.toml"))
+    a = check_summary(results)
+    b = summarise(document_check_set(calcdoc.to_json(results)), len(results.cases))
+    assert (a.count, len(a.failed), a.at_tolerance) == (b.count, len(b.failed), b.at_tolerance)
+    assert [(r.case, r.scope, r.check.id) for r in a.rows] == [
+        (r.case, r.scope, r.check.id) for r in b.rows
+    ]
+    assert (a.worst is None) == (b.worst is None)
+    if a.worst is not None:
+        assert a.worst.utilization == b.worst.utilization
