@@ -152,7 +152,10 @@ def analyse(project: Project, *, closed_form: bool = False) -> Results:
         from calcdoc.analysis.preferred import preferred_findings
         from calcdoc.analysis.stages import PreferredStage
 
-        extra["preferred_values"] = PreferredStage(preferred_findings(project, nominal.values))
+        # a preferred value is judged on the value as stated, not shifted by temperature
+        extra["preferred_values"] = PreferredStage(
+            preferred_findings(project, element_values(project))
+        )
     findings = history_findings(project)
     if findings:
         from calcdoc.analysis.stages import HistoryStage

@@ -271,3 +271,25 @@ def test_montecarlo_is_reproducible():
         == b.extra["tolerance"].per_case[0].nodes["out"]
     )
     assert np.isfinite(a.extra["tolerance"].per_case[0].nodes["out"].std)
+
+
+def test_preferred_value_is_judged_as_stated_not_as_shifted_by_temperature():
+    # 2.2 kΩ is an E24 value (IEC 60063, from memory); at 125 °C with 100 ppm/K it is
+    # 2.222 kΩ while operating, which must not make the stated part "not preferred"
+    p = calcdoc.loads("""
+[elements.V1]
+type = "voltage_source"
+nodes = ["in", "gnd"]
+value = "5 V"
+[elements.R1]
+type = "resistor"
+nodes = ["in", "gnd"]
+value = "2k2"
+series = "E24"
+tcr = "100 ppm/K"
+[analysis]
+temperature = "125 °C"
+""")
+    r = calcdoc.solve(p)
+    assert float(r.cases[0].values["R1"]) == pytest.approx(2222.0)  # R·(1 + α·ΔT)
+    assert [f.in_series for f in r.extra["preferred_values"].findings] == [True]
