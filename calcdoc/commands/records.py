@@ -138,7 +138,7 @@ def make_record(
     project = calcdoc.load(source)
     out = Path(job.output) if job.output else default_output(project, source)
     check_output(out, inputs)
-    warnings: list[str] = []
+    warnings: list[str] = list(project.warnings)  # names differing only in case, and the like
     if job.changed:
         unchanged = unchanged_outcome(project, out, warnings)
         if unchanged is not None:
