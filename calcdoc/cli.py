@@ -1,4 +1,4 @@
-"""Command line: ``calcdoc build | new | solve | check | diff | verify``.
+"""Command line: ``calcdoc build | new | schema | solve | check | diff | verify``.
 
 Each command is a few lines in :mod:`calcdoc.commands`; this module only
 parses arguments and maps errors to exit status (0 done, 1 a check or
@@ -91,6 +91,13 @@ def parser() -> argparse.ArgumentParser:
 
     n = sub.add_parser("new", help="write a starter project (never overwrites)")
     n.add_argument("file", help="project file to create (.toml)")
+
+    sub.add_parser(
+        "schema",
+        help="print the project file's JSON Schema, for editors that complete and check keys",
+        description="Print the JSON Schema (draft 2020-12) of the project file; save it with "
+        "`calcdoc schema > calcdoc.schema.json` and point your TOML editor at it.",
+    )
 
     s = sub.add_parser("solve", help="print the results (tables, or JSON)")
     s.add_argument("file", help="project file (.toml)")

@@ -19,6 +19,7 @@ from pathlib import Path
 from typing import Any
 
 from calcdoc.errors import Fault, ProjectError
+from calcdoc.model import keys as file_keys
 from calcdoc.model.elements import KINDS, RATING_KEYS, element_keys
 from calcdoc.model.expressions import (
     ExpressionError,
@@ -71,20 +72,15 @@ try:  # tomli's compiled wheels parse about 2x faster than the standard library'
 except ImportError:  # pragma: no cover
     import tomllib  # type: ignore[no-redef]
 
-NAME_RE = re.compile(r"[A-Za-z0-9_.\-]+")
+NAME_RE = re.compile(file_keys.NAME_PATTERN)
 OUTPUT_QUANTITIES = ("voltage", "current", "power")
-TOLERANCE_METHODS = ("none", "extreme", "montecarlo", "rss")
-SERIES = ("E3", "E6", "E12", "E24", "E48", "E96", "E192")
-PAPERS = ("A4", "Letter")
-
-TOP_KEYS = (
-    "schema", "document", "signoff", "circuit", "parameters", "elements",
-    "limits", "cases", "analysis", "sweeps", "report",
-)  # fmt: skip
-DOCUMENT_KEYS = (
-    "title", "number", "revision", "date", "project", "organisation", "purpose",
-    "scope", "assumptions", "references", "history", "conclusion",
-)  # fmt: skip
+# The allowed keys and enumerations come from the one declaration of the
+# project file (calcdoc.model.keys), from which the JSON Schema is also made.
+TOLERANCE_METHODS = file_keys.TOLERANCE_METHODS
+SERIES = file_keys.SERIES
+PAPERS = file_keys.PAPERS
+TOP_KEYS = file_keys.names("")
+DOCUMENT_KEYS = file_keys.names("document")
 
 # ---------------------------------------------------------------- limits
 # Resource caps, stated in the README ("Security and limits") and checked
@@ -309,7 +305,7 @@ def _tolerance(value: Any, path: str, faults: _Faults) -> Tolerance | None:
     if value is None:
         return None
     if isinstance(value, dict):
-        _keys(value, ("minus", "plus"), path, faults)
+        _keys(value, file_keys.names_of(file_keys.TOLERANCE_KEYS), path, faults)
         if "minus" not in value or "plus" not in value:
             faults.add(path, "an asymmetric tolerance needs both 'minus' and 'plus'")
             return None
@@ -335,7 +331,7 @@ def _derating(value: Any, path: str, faults: _Faults) -> Derating | None:
     if value is None:
         return None
     table = _table(value, path, faults)
-    _keys(table, ("knee", "zero"), path, faults)
+    _keys(table, file_keys.names_of(file_keys.DERATING_KEYS), path, faults)
     knee = _temperature(table.get("knee"), _join(path, "knee"), faults)
     zero = _temperature(table.get("zero"), _join(path, "zero"), faults)
     if knee is None or zero is None:
@@ -377,7 +373,7 @@ def _document(raw: Any, faults: _Faults) -> Document:
     for i, h in enumerate(hist):
         path = f"document.history[{i}]"
         h = _table(h, path, faults)
-        _keys(h, ("revision", "date", "description"), path, faults)
+        _keys(h, file_keys.names("document.history"), path, faults)
         if "revision" not in h:
             faults.add(path, "missing key 'revision'")
         history.append(
@@ -405,15 +401,15 @@ def _document(raw: Any, faults: _Faults) -> Document:
 
 def _signoff(raw: Any, faults: _Faults) -> Signoff:
     t = _table(raw, "signoff", faults)
-    _keys(t, ("prepared", "checked", "approved", "seal"), "signoff", faults)
+    _keys(t, file_keys.names("signoff"), "signoff", faults)
     roles: dict[str, Signature | None] = {}
-    for role in ("prepared", "checked", "approved"):
+    for role in file_keys.ROLES:
         if role not in t:
             roles[role] = None
             continue
         path = f"signoff.{role}"
         r = _table(t[role], path, faults)
-        _keys(r, ("name", "date"), path, faults)
+        _keys(r, file_keys.names(path), path, faults)
         name = _text(r, "name", path, faults)
         if not name.strip():
             faults.add(path, "a sign-off needs a 'name' (leave the role out while it is open)")
@@ -431,7 +427,7 @@ def _parameters(raw: Any, faults: _Faults) -> tuple[dict[str, Quantity], list[Pa
             continue
         tol_raw, desc = None, ""
         if isinstance(spec, dict):
-            _keys(spec, ("value", "tolerance", "description"), path, faults)
+            _keys(spec, file_keys.names("parameters.*"), path, faults)
             desc = _text(spec, "description", path, faults)
             tol_raw = spec.get("tolerance")
             if "value" not in spec:
@@ -858,22 +854,9 @@ def _window(value: Any, key, path: str, faults: _Faults) -> tuple[Number, Number
 
 def _limits(raw: Any, faults: _Faults, nodes: set[str], declared_nodes: Any = ()) -> Limits:
     t = _table(raw, "limits", faults)
-    _keys(
-        t,
-        (
-            "power_fraction",
-            "voltage_fraction",
-            "current_fraction",
-            "ambient",
-            "derating",
-            "nodes",
-            "across",
-        ),
-        "limits",
-        faults,
-    )
+    _keys(t, file_keys.names("limits"), "limits", faults)
     fr = {}
-    for key in ("power_fraction", "voltage_fraction", "current_fraction"):
+    for key in file_keys.LIMIT_FRACTIONS:
         if key in t:
             v = _fraction_value(t[key], f"limits.{key}", faults, Fraction(0), Fraction(1))
             if v is not None:
@@ -886,7 +869,7 @@ def _limits(raw: Any, faults: _Faults, nodes: set[str], declared_nodes: Any = ()
                 faults.add(path, f"no such node{faults.hint(node, nodes)}")
             continue
         spec = _table(spec, path, faults)
-        _keys(spec, ("min", "max"), path, faults)
+        _keys(spec, file_keys.names("limits.nodes.*"), path, faults)
         lo = _quantity(spec["min"], VOLT, f"{path}.min", faults) if "min" in spec else None
         hi = _quantity(spec["max"], VOLT, f"{path}.max", faults) if "max" in spec else None
         if "min" not in spec and "max" not in spec:
@@ -914,7 +897,7 @@ def _across(raw: Any, faults: _Faults, nodes: set[str], declared_nodes: Any) -> 
     for i, spec in enumerate(raw):
         path = f"limits.across[{i}]"
         spec = _table(spec, path, faults)
-        _keys(spec, ("name", "nodes", "min", "max", "description"), path, faults)
+        _keys(spec, file_keys.names("limits.across"), path, faults)
         name = spec.get("name")
         if not isinstance(name, str) or not NAME_RE.fullmatch(name):
             faults.add(
@@ -973,7 +956,7 @@ def _cases(
     for i, spec in enumerate(raw):
         path = f"cases[{i}]"
         spec = _table(spec, path, faults)
-        _keys(spec, ("name", "set", "description"), path, faults)
+        _keys(spec, file_keys.names("cases"), path, faults)
         name = _text(spec, "name", path, faults)
         if not name.strip():
             faults.add(f"{path}.name", "every case needs a name")
@@ -1060,16 +1043,7 @@ def _analysis(
     raw: Any, faults: _Faults, nodes: set[str], elements: Mapping[str, Element]
 ) -> Analysis:
     t = _table(raw, "analysis", faults)
-    keys = (
-        "tolerance",
-        "samples",
-        "seed",
-        "distribution",
-        "sensitivity",
-        "temperature",
-        "reference_temperature",
-    )
-    _keys(t, keys, "analysis", faults)
+    _keys(t, file_keys.names("analysis"), "analysis", faults)
     kw: dict[str, Any] = {}
     method = t.get("tolerance", "none")
     if method not in TOLERANCE_METHODS:
@@ -1079,7 +1053,8 @@ def _analysis(
         )
     else:
         kw["tolerance"] = method
-    for key, lo, hi in (("samples", 10, 1_000_000), ("seed", 0, 2**32 - 1)):
+    for key in ("samples", "seed"):
+        lo, hi = file_keys.span(f"analysis.{key}")
         if key in t:
             v = t[key]
             if not isinstance(v, int) or isinstance(v, bool) or not lo <= v <= hi:
@@ -1087,7 +1062,7 @@ def _analysis(
             else:
                 kw[key] = v
     if "distribution" in t:
-        if t["distribution"] not in ("uniform", "normal"):
+        if t["distribution"] not in file_keys.DISTRIBUTIONS:
             faults.add("analysis.distribution", 'expected "uniform" or "normal"')
         else:
             kw["distribution"] = t["distribution"]
@@ -1119,7 +1094,7 @@ def _sweeps(
     for i, spec in enumerate(raw):
         path = f"sweeps[{i}]"
         spec = _table(spec, path, faults)
-        _keys(spec, ("name", "target", "from", "to", "points", "scale", "outputs"), path, faults)
+        _keys(spec, file_keys.names("sweeps"), path, faults)
         target = spec.get("target")
         if target in elements and not elements[target].main_given:
             faults.add(f"{path}.target", _no_value(elements[target].kind))
@@ -1141,11 +1116,12 @@ def _sweeps(
         start = _quantity(spec["from"], dim, f"{path}.from", faults)
         stop = _quantity(spec["to"], dim, f"{path}.to", faults)
         points = spec.get("points", 41)
-        if not isinstance(points, int) or isinstance(points, bool) or not 2 <= points <= 2000:
-            faults.add(f"{path}.points", "expected a whole number from 2 to 2000")
+        lo, hi = file_keys.span("sweeps.points")
+        if not isinstance(points, int) or isinstance(points, bool) or not lo <= points <= hi:
+            faults.add(f"{path}.points", f"expected a whole number from {lo} to {hi}")
             continue
         scale = spec.get("scale", "linear")
-        if scale not in ("linear", "log"):
+        if scale not in file_keys.SCALES:
             faults.add(f"{path}.scale", 'expected "linear" or "log"')
             continue
         outputs = _outputs(spec.get("outputs"), f"{path}.outputs", faults, nodes, elements)
@@ -1167,7 +1143,7 @@ def _sweeps(
 
 def _report(raw: Any, faults: _Faults) -> ReportSettings:
     t = _table(raw, "report", faults)
-    _keys(t, ("template", "paper", "significant_figures", "conclusion"), "report", faults)
+    _keys(t, file_keys.names("report"), "report", faults)
     kw: dict[str, Any] = {}
     if "template" in t:
         kw["template"] = _text(t, "template", "report", faults, "standard")
@@ -1180,8 +1156,9 @@ def _report(raw: Any, faults: _Faults) -> ReportSettings:
             kw["paper"] = t["paper"]
     if "significant_figures" in t:
         v = t["significant_figures"]
-        if not isinstance(v, int) or isinstance(v, bool) or not 2 <= v <= 10:
-            faults.add("report.significant_figures", "expected a whole number from 2 to 10")
+        lo, hi = file_keys.span("report.significant_figures")
+        if not isinstance(v, int) or isinstance(v, bool) or not lo <= v <= hi:
+            faults.add("report.significant_figures", f"expected a whole number from {lo} to {hi}")
         else:
             kw["significant_figures"] = v
     kw["conclusion"] = _text(t, "conclusion", "report", faults)
@@ -1320,7 +1297,7 @@ def _parse_project(source: bytes | str, path: str) -> Project:
     if schema != 1 or isinstance(schema, bool):
         faults.add("schema", f"this calcdoc reads schema 1, found {schema!r}")
     circuit = _table(data.get("circuit"), "circuit", faults)
-    _keys(circuit, ("reference",), "circuit", faults)
+    _keys(circuit, file_keys.names("circuit"), "circuit", faults)
     reference = _text(circuit, "reference", "circuit", faults, "gnd")
     if not NAME_RE.fullmatch(reference):
         faults.add(
