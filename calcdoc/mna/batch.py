@@ -107,7 +107,7 @@ def solve_x(st: Structure, p: np.ndarray) -> np.ndarray:
     out = np.empty((K, n))
     for start in range(0, K, SPARSE_CHUNK):
         vals = st.A.values(pe[start : start + SPARSE_CHUNK])
-        data = np.asarray((gather.T @ vals.T).T)
+        data = np.ascontiguousarray((gather.T @ vals.T).T)  # SuperLU takes contiguous rows only
         for r in range(len(data)):
             A = csc_matrix((data[r], indices, indptr), shape=(n, n))
             out[start + r] = splu(A).solve(z[start + r])
