@@ -141,8 +141,10 @@ def document_check_set(doc: dict[str, Any]) -> tuple[CheckRow, ...]:
     for case in doc.get("cases", []):
         out += [CheckRow(case["name"], VALUES, recorded(c)) for c in case.get("checks", [])]
         tol = case.get("tolerance") or {}
-        out += [CheckRow(case["name"], TOLERANCE, recorded(c), tol.get("method", ""))
-                for c in tol.get("checks", [])]  # fmt: skip
+        out += [
+            CheckRow(case["name"], TOLERANCE, recorded(c), tol.get("method", ""))
+            for c in tol.get("checks", [])
+        ]
     return tuple(out)
 
 

@@ -52,8 +52,11 @@ def parser() -> argparse.ArgumentParser:
         description="Calculation records for linear DC circuits, from one TOML project file.",
         epilog="Exit status: 0 done, 1 a check or verification failed, 2 bad input.",
     )
-    ap.add_argument("--version", action=_VersionAction,
-                    help="show the version of calcdoc and of the libraries that shape the results")  # fmt: skip
+    ap.add_argument(
+        "--version",
+        action=_VersionAction,
+        help="show the version of calcdoc and of the libraries that shape the results",
+    )
     sub = ap.add_subparsers(dest="command", metavar="COMMAND", required=True)
 
     b = sub.add_parser(
@@ -85,8 +88,13 @@ def parser() -> argparse.ArgumentParser:
         action="store_true",
         help="skip a record whose package embeds the same input and calcdoc version",
     )
-    b.add_argument("-j", "--jobs", type=_jobs, metavar="N",
-                   help="records built at once (default: the number of CPUs)")  # fmt: skip
+    b.add_argument(
+        "-j",
+        "--jobs",
+        type=_jobs,
+        metavar="N",
+        help="records built at once (default: the number of CPUs)",
+    )
     b.add_argument("-q", "--quiet", action="store_true", help="no progress display")
 
     n = sub.add_parser("new", help="write a starter project (never overwrites)")
@@ -114,8 +122,13 @@ def parser() -> argparse.ArgumentParser:
 
     v = sub.add_parser("verify", help="check a package's signature, embedded input and results")
     v.add_argument("package", help="package (.pdf)")
-    v.add_argument("--trust", action="append", default=[], metavar="CERT.pem",
-                   help="trusted signer or CA certificate (repeatable)")  # fmt: skip
+    v.add_argument(
+        "--trust",
+        action="append",
+        default=[],
+        metavar="CERT.pem",
+        help="trusted signer or CA certificate (repeatable)",
+    )
     v.add_argument("--json", action="store_true", help="print the findings as JSON")
     return ap
 

@@ -19,8 +19,17 @@ from __future__ import annotations
 import math
 
 _PREFIX = {
-    -15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T",
-}  # fmt: skip
+    -15: "f",
+    -12: "p",
+    -9: "n",
+    -6: "µ",
+    -3: "m",
+    0: "",
+    3: "k",
+    6: "M",
+    9: "G",
+    12: "T",
+}
 
 MINUS = "−"
 
@@ -118,9 +127,16 @@ def signed(x: float, sig: int = 4) -> str:
 
 
 UNITS = {
-    "voltage": "V", "current": "A", "power": "W", "node voltage": "V", "node": "V",
-    "reverse voltage": "V", "reverse_voltage": "V", "output voltage": "V", "voltage across": "V",
-}  # fmt: skip
+    "voltage": "V",
+    "current": "A",
+    "power": "W",
+    "node voltage": "V",
+    "node": "V",
+    "reverse voltage": "V",
+    "reverse_voltage": "V",
+    "output voltage": "V",
+    "voltage across": "V",
+}
 
 
 def value_text(unit: str, value: float, sig: int = 4) -> str:

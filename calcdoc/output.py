@@ -181,17 +181,20 @@ class Terminal:
             if r.states is not None:
                 st = r.states
                 tight = min(
-                    ((d.element, t) for d in st.devices for t in d.tests), key=lambda x: x[1].margin,
+                    ((d.element, t) for d in st.devices for t in d.tests),
+                    key=lambda x: x[1].margin,
                     default=None,
-                )  # fmt: skip
+                )
                 held = "every device's test holds" if st.holds else "a device's test FAILS"
                 line = (
                     f"States: {st.method}, {st.iterations} pivots over {st.pieces} pieces; {held}"
                 )
                 if tight is not None:
                     unit = "A" if tight[1].quantity == "current" else "V"
-                    line += (f" (smallest margin {tight[0]} {tight[1].text} by "
-                             f"{self.eng(tight[1].margin, unit, 3)})")  # fmt: skip
+                    line += (
+                        f" (smallest margin {tight[0]} {tight[1].text} by "
+                        f"{self.eng(tight[1].margin, unit, 3)})"
+                    )
                 self.line(line)
             for w in s.warnings:
                 self.warning(w)

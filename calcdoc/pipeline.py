@@ -65,9 +65,19 @@ def solve_case(
     keep = sol.formulation is not None
     symbols = dict(zip((s.name for s in st.symbols), st.p, strict=True)) if keep else {}
     return CaseResult(
-        name, case, vals, net, sol, br, kcl_residuals(net, br), kvl_loops(net, br),
-        power_ledger(net, br), design_checks(project, net, br), symbols, proof,
-    )  # fmt: skip
+        name,
+        case,
+        vals,
+        net,
+        sol,
+        br,
+        kcl_residuals(net, br),
+        kvl_loops(net, br),
+        power_ledger(net, br),
+        design_checks(project, net, br),
+        symbols,
+        proof,
+    )
 
 
 def solve_cases(project: Project) -> tuple[CaseResult, ...]:

@@ -131,7 +131,7 @@ def device_states(s: StateSearch) -> dict[str, Any]:
                     "holds": t.holds,
                 }
                 for t in d.tests
-            ],  # fmt: skip
+            ],
         }
         for d in s.devices
     }

@@ -65,8 +65,12 @@ def _output_key(net, output: str) -> tuple[str, int]:
 
 
 def _scale(br, kind: str) -> float:
-    arr = {"node": br.node_voltage, "voltage": br.voltage, "current": br.current,
-           "power": br.power}[kind]  # fmt: skip
+    arr = {
+        "node": br.node_voltage,
+        "voltage": br.voltage,
+        "current": br.current,
+        "power": br.power,
+    }[kind]
     return float(np.max(np.abs(arr))) if len(arr) else 0.0
 
 

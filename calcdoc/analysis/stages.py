@@ -38,8 +38,10 @@ class ToleranceStage:
                     default=None,
                 )
                 fails = sum(not c.passed for c in t.checks)
-                out.append(f"Tolerance ({t.method}) [{t.case}]: {t.solved} solutions, {fails} check(s) fail at the worst case"
-                           + (f"; worst {percent(worst.utilization)} at {worst.id}" if worst else ""))  # fmt: skip
+                out.append(
+                    f"Tolerance ({t.method}) [{t.case}]: {t.solved} solutions, {fails} check(s) fail at the worst case"
+                    + (f"; worst {percent(worst.utilization)} at {worst.id}" if worst else "")
+                )
         return tuple(out)
 
 
@@ -59,9 +61,15 @@ class SensitivityStage:
     def project_json(self) -> dict:
         return {
             "case": self.case,
-            "outputs": {s.output: {"value": s.value, "method": s.method,
-                                   "normalised": {n: v for n, _, v in s.ranked}} for s in self.items},
-        }  # fmt: skip
+            "outputs": {
+                s.output: {
+                    "value": s.value,
+                    "method": s.method,
+                    "normalised": {n: v for n, _, v in s.ranked},
+                }
+                for s in self.items
+            },
+        }
 
 
 @dataclass(frozen=True)
@@ -86,8 +94,17 @@ class PreferredStage:
     findings: tuple[PreferredFinding, ...]
 
     def project_json(self) -> list[dict]:
-        return [{"element": f.element, "series": f.series, "value": f.value, "in_series": f.in_series,
-                 "below": f.below, "above": f.above} for f in self.findings]  # fmt: skip
+        return [
+            {
+                "element": f.element,
+                "series": f.series,
+                "value": f.value,
+                "in_series": f.in_series,
+                "below": f.below,
+                "above": f.above,
+            }
+            for f in self.findings
+        ]
 
     def notes(self) -> tuple[str, ...]:
         return tuple(

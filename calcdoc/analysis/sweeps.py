@@ -58,13 +58,30 @@ class SweepResult:
 
     def to_json(self) -> dict:
         return {
-            "name": self.name, "target": self.target, "points": list(self.points), "scale": self.scale,
+            "name": self.name,
+            "target": self.target,
+            "points": list(self.points),
+            "scale": self.scale,
             "outputs": {k: list(v) for k, v in self.series.items()},
-            "crossings": [{"output": c.output, "check": c.check, "limit": c.limit, "at": c.at,
-                           "direction": c.direction} for c in self.crossings],
-            **({"iterations": list(self.iterations),
-                "state_changes": [dict(x) for x in self.states]} if self.iterations else {}),
-        }  # fmt: skip
+            "crossings": [
+                {
+                    "output": c.output,
+                    "check": c.check,
+                    "limit": c.limit,
+                    "at": c.at,
+                    "direction": c.direction,
+                }
+                for c in self.crossings
+            ],
+            **(
+                {
+                    "iterations": list(self.iterations),
+                    "state_changes": [dict(x) for x in self.states],
+                }
+                if self.iterations
+                else {}
+            ),
+        }
 
 
 def _value_rows(project, sweep, pts: np.ndarray) -> np.ndarray:
@@ -151,6 +168,15 @@ def sweep_result(project, nominal, sweep) -> SweepResult:
         iterations = tuple(int(k) for k in stated.iterations)
         states = tuple(tuple(stated.changes(k, net.names).items()) for k in range(len(pts)))
     return SweepResult(
-        name, sweep.target, kind, points, sweep.scale, series, limits, tuple(crossings), unit,
-        iterations, states,
-    )  # fmt: skip
+        name,
+        sweep.target,
+        kind,
+        points,
+        sweep.scale,
+        series,
+        limits,
+        tuple(crossings),
+        unit,
+        iterations,
+        states,
+    )

@@ -120,11 +120,15 @@ class ToleranceResult:
 
         def rng(x: Extreme) -> dict:
             d = {
-                "min": x.min, "max": x.max, "nominal": x.nominal,
+                "min": x.min,
+                "max": x.max,
+                "nominal": x.nominal,
                 "min_at": dict(zip(names, x.min_at, strict=True)),
                 "max_at": dict(zip(names, x.max_at, strict=True)),
-                "how": x.how, "min_where": x.min_where, "max_where": x.max_where,
-            }  # fmt: skip
+                "how": x.how,
+                "min_where": x.min_where,
+                "max_where": x.max_where,
+            }
             if x.mean is not None:
                 d.update(mean=x.mean, std=x.std, p01=x.p01, p99=x.p99)
             if x.min_states:
@@ -157,7 +161,7 @@ class ToleranceResult:
                     "utilization": c.utilization,
                     "margin": c.margin,
                     "status": c.status,
-                }  # fmt: skip
+                }
                 for c in self.checks
             ],
         }
@@ -295,8 +299,16 @@ def _gradients(runs: _Runs, var: Variation, delta: np.ndarray, keys) -> np.ndarr
     return _matrix(t, keys)
 
 
-def _local_search(runs: _Runs, var: Variation, keys, k: int, start: np.ndarray, sign: float,
-                  lo: np.ndarray, hi: np.ndarray) -> tuple[float, np.ndarray]:  # fmt: skip
+def _local_search(
+    runs: _Runs,
+    var: Variation,
+    keys,
+    k: int,
+    start: np.ndarray,
+    sign: float,
+    lo: np.ndarray,
+    hi: np.ndarray,
+) -> tuple[float, np.ndarray]:
     """Maximise sign·output[k] over the box from ``start`` (L-BFGS-B)."""
     from scipy.optimize import minimize
 
@@ -306,8 +318,14 @@ def _local_search(runs: _Runs, var: Variation, keys, k: int, start: np.ndarray, 
         g = _gradients(runs, var, delta, [keys[k]])[:, 0]
         return -sign * y, -sign * g
 
-    res = minimize(f, start, jac=True, method="L-BFGS-B", bounds=list(zip(lo, hi, strict=True)),
-                   options={"maxiter": 60, "ftol": 1e-15, "gtol": 1e-14})  # fmt: skip
+    res = minimize(
+        f,
+        start,
+        jac=True,
+        method="L-BFGS-B",
+        bounds=list(zip(lo, hi, strict=True)),
+        options={"maxiter": 60, "ftol": 1e-15, "gtol": 1e-14},
+    )
     return float(-sign * res.fun), np.clip(res.x, lo, hi)
 
 
@@ -332,9 +350,12 @@ def _extremes(runs: _Runs, var: Variation, keys, lo, hi, nominal_row):
     batch, stated = runs.batch(var.params(st, delta), count=True)
     Y = _matrix(batch, keys)
     steady = not stated.changed.any()  # every vertex in the case's device states
-    proved_kind = steady and complete and _rank_one_elements(st, var) and _det_signs_agree(
-        st, var.params(st, delta)
-    )  # fmt: skip
+    proved_kind = (
+        steady
+        and complete
+        and _rank_one_elements(st, var)
+        and _det_signs_agree(st, var.params(st, delta))
+    )
     if not steady:
         note += (
             f"; a device changes state at {int(stated.changed.sum())} of them, so the "
@@ -396,8 +417,9 @@ def _vertex_climb(runs: _Runs, var, keys, o, at, best, sign, lo, hi):
 # --------------------------------------------------------------------------
 
 
-def _worst_checks(project, case_checks, nodes: dict, elements: dict, across: dict,
-                  label: str) -> tuple[Check, ...]:  # fmt: skip
+def _worst_checks(
+    project, case_checks, nodes: dict, elements: dict, across: dict, label: str
+) -> tuple[Check, ...]:
     from calcdoc.verify.checks import window_check
 
     windows = {w.name: w for w in project.limits.across}
@@ -412,8 +434,13 @@ def _worst_checks(project, case_checks, nodes: dict, elements: dict, across: dic
         elif c.id.startswith("across."):
             win = windows[c.subject]
             ex = across[c.subject]
-            w = min((range_check(c.id, c.subject, c.quantity, v, win.min, win.max, c.basis)
-                     for v in (ex.min, ex.max)), key=lambda ch: ch.margin)  # fmt: skip
+            w = min(
+                (
+                    range_check(c.id, c.subject, c.quantity, v, win.min, win.max, c.basis)
+                    for v in (ex.min, ex.max)
+                ),
+                key=lambda ch: ch.margin,
+            )
             at = ex.min_states if w.value == ex.min else ex.max_states
         elif key in RATINGS:
             rating = RATINGS[key]
@@ -428,8 +455,13 @@ def _worst_checks(project, case_checks, nodes: dict, elements: dict, across: dic
             wk = {k.name: k for k in e.kind.windows}[key]
             lo, hi = next((a, b) for k, a, b in e.windows if k == key)
             ex = elements[subject][wk.of]
-            w = min((range_check(c.id, subject, c.quantity, v, lo, hi, c.basis)
-                     for v in (ex.min, ex.max)), key=lambda ch: ch.margin)  # fmt: skip
+            w = min(
+                (
+                    range_check(c.id, subject, c.quantity, v, lo, hi, c.basis)
+                    for v in (ex.min, ex.max)
+                ),
+                key=lambda ch: ch.margin,
+            )
             at = ex.min_states if w.value == ex.min else ex.max_states
         where = "; there " + ", ".join(f"{n} {st}" for n, st in at) if at else ""
         out.append(replace(w, basis=f"{c.basis}; worst of {label}{where}"))
@@ -488,9 +520,18 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
         for o, key in enumerate(keys):
             hi_v, lo_v = found[key]["max"], found[key]["min"]
             how = "vertices, proved" if hi_v[3] else "vertices and local search"
-            ext[key] = Extreme(float(nom[o]), lo_v[0], hi_v[0], lo_v[1], hi_v[1], how=how,
-                               min_where=lo_v[2], max_where=hi_v[2], min_states=lo_v[4],
-                               max_states=hi_v[4])  # fmt: skip
+            ext[key] = Extreme(
+                float(nom[o]),
+                lo_v[0],
+                hi_v[0],
+                lo_v[1],
+                hi_v[1],
+                how=how,
+                min_where=lo_v[2],
+                max_where=hi_v[2],
+                min_states=lo_v[4],
+                max_states=hi_v[4],
+            )
         label = "the tolerance box"
     elif a.tolerance == "montecarlo":
         rng = np.random.default_rng(a.seed)
@@ -524,12 +565,21 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
             col = Y[:, o]
             kmin, kmax = int(np.argmin(col)), int(np.argmax(col))
             ext[key] = Extreme(
-                float(nom[o]), float(col[kmin]), float(col[kmax]),
-                tuple(delta[kmin].tolist()), tuple(delta[kmax].tolist()),
-                float(col.mean()), float(col.std(ddof=1)) if K > 1 else 0.0,
-                float(np.percentile(col, 1)), float(np.percentile(col, 99)),
-                "samples", "sample", "sample", changes(kmin), changes(kmax),
-            )  # fmt: skip
+                float(nom[o]),
+                float(col[kmin]),
+                float(col[kmax]),
+                tuple(delta[kmin].tolist()),
+                tuple(delta[kmax].tolist()),
+                float(col.mean()),
+                float(col.std(ddof=1)) if K > 1 else 0.0,
+                float(np.percentile(col, 1)),
+                float(np.percentile(col, 99)),
+                "samples",
+                "sample",
+                "sample",
+                changes(kmin),
+                changes(kmax),
+            )
         solved = K
         label = f"{K} samples (sample extremes)"
 
@@ -550,12 +600,15 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
             down = np.minimum(slope * hi, slope * lo)
             y = float(nom[o])
             ext[key] = Extreme(
-                y, y - float(np.sqrt(np.sum(np.minimum(down, 0) ** 2))),
+                y,
+                y - float(np.sqrt(np.sum(np.minimum(down, 0) ** 2))),
                 y + float(np.sqrt(np.sum(np.maximum(up, 0) ** 2))),
                 tuple(np.where(slope < 0, hi, lo).tolist()),
-                tuple(np.where(slope >= 0, hi, lo).tolist()), how="first order",
-                min_where="first order", max_where="first order",
-            )  # fmt: skip
+                tuple(np.where(slope >= 0, hi, lo).tolist()),
+                how="first order",
+                min_where="first order",
+                max_where="first order",
+            )
         note = "root-sum-square of first-order deviations (direct differentiation of the solution)"
         solved = 1
         label = "the RSS band"
@@ -567,10 +620,20 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
             f"(found by the state search, {runs.iterations} pivots in all)"
         )
     return ToleranceResult(
-        case_result.name, a.tolerance, note, quantities, solved, nodes, elements, checks, hist,
-        across, runs.changed, runs.iterations,
+        case_result.name,
+        a.tolerance,
+        note,
+        quantities,
+        solved,
+        nodes,
+        elements,
+        checks,
+        hist,
+        across,
+        runs.changed,
+        runs.iterations,
         tuple(runs.per_set) if len(runs.solver.pcs) and len(runs.per_set) <= LISTED_SETS else (),
-    )  # fmt: skip
+    )
 
 
 __all__ = ["Extreme", "ToleranceResult", "tolerance_result", "factor"]

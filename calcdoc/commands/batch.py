@@ -98,9 +98,12 @@ def plan(
             for p in who:
                 if p in loaded:
                     others = ", ".join(w for w in who if w != p)
-                    known[p] = failed(p, f"{p}: not built: its package {out} would also be that "
-                                         f"of {others} (give each record its own document number "
-                                         "or revision)")  # fmt: skip
+                    known[p] = failed(
+                        p,
+                        f"{p}: not built: its package {out} would also be that "
+                        f"of {others} (give each record its own document number "
+                        "or revision)",
+                    )
     if changed:
         for p, (project, out) in loaded.items():
             if p not in known:
@@ -160,8 +163,9 @@ def _execute(todo: Sequence[RecordJob], workers: int, started: Callable[[str], N
 
     ctx = multiprocessing.get_context("spawn")  # a fresh interpreter: no threads inherited
     starts = ctx.Queue()
-    pool = ProcessPoolExecutor(workers, mp_context=ctx, initializer=_worker_start,
-                               initargs=(starts,))  # fmt: skip
+    pool = ProcessPoolExecutor(
+        workers, mp_context=ctx, initializer=_worker_start, initargs=(starts,)
+    )
     try:
         futures = {pool.submit(_worker_build, job): job for job in todo}
         pending = set(futures)
@@ -173,8 +177,11 @@ def _execute(todo: Sequence[RecordJob], workers: int, started: Callable[[str], N
                 try:
                     yield f.result()
                 except Exception as exc:  # the worker process itself ended (killed, out of memory)
-                    yield failed(job.project, f"{job.project}: the process building it stopped "
-                                              f"unexpectedly ({type(exc).__name__})")  # fmt: skip
+                    yield failed(
+                        job.project,
+                        f"{job.project}: the process building it stopped "
+                        f"unexpectedly ({type(exc).__name__})",
+                    )
     except BaseException:
         for child in multiprocessing.active_children():
             child.terminate()  # a worker writing a package removes its partial file first
@@ -254,8 +261,10 @@ class _Display:
             self.term.error(o.message)
         if self.plain:
             what = {"built": f"built {o.package}", "unchanged": f"unchanged {o.package}"}
-            self.term.line(f"[{self.done}/{self.total}] {project}: "
-                           f"{what.get(o.action, 'not built')} ({self._elapsed()})")  # fmt: skip
+            self.term.line(
+                f"[{self.done}/{self.total}] {project}: "
+                f"{what.get(o.action, 'not built')} ({self._elapsed()})"
+            )
         self._show()
 
     def close(self) -> None:
@@ -269,10 +278,20 @@ def _summary(term, outcomes: Sequence[RecordOutcome], folder: Path, reserved) ->
         built = o.action != "not built"
         worst = f"{100 * o.worst_utilisation:.1f} %" if o.worst_utilisation is not None else ""
         checks = f"{o.checks_run} run, {o.checks_failing} failing" if built else ""
-        rows.append((str(i), relative(o.project, folder) if folder != Path(".") else o.project,
-                     o.number, o.revision, o.action, checks, worst))  # fmt: skip
+        rows.append(
+            (
+                str(i),
+                relative(o.project, folder) if folder != Path(".") else o.project,
+                o.number,
+                o.revision,
+                o.action,
+                checks,
+                worst,
+            )
+        )
     term.line()
-    term.table(["No.", "project", "document", "rev.", "this run", "checks", "worst"], rows,
-               align="rllllll")  # fmt: skip
+    term.table(
+        ["No.", "project", "document", "rev.", "this run", "checks", "worst"], rows, align="rllllll"
+    )
     term.line(summary_line(outcomes))
     term.line(f"register: {reserved[0]}, {reserved[1]}")

@@ -21,10 +21,13 @@ def run(args, term) -> int:
     if len(paths) > 1 or Path(args.file).is_dir():
         single_only = [
             flag
-            for flag, given in (("-o", args.output), ("--previous", args.previous),
-                                ("--sign", args.sign))
+            for flag, given in (
+                ("-o", args.output),
+                ("--previous", args.previous),
+                ("--sign", args.sign),
+            )
             if given
-        ]  # fmt: skip
+        ]
         if single_only:
             raise CalcdocError(
                 f"{', '.join(single_only)}: for one project file only; a set of records writes "
@@ -33,9 +36,13 @@ def run(args, term) -> int:
         from calcdoc.commands.batch import run_batch
 
         return run_batch(
-            paths, jobs=args.jobs, changed=args.changed, strict=args.strict, term=term,
+            paths,
+            jobs=args.jobs,
+            changed=args.changed,
+            strict=args.strict,
+            term=term,
             quiet=args.quiet,
-        )  # fmt: skip
+        )
     job = RecordJob(args.file, args.output, args.previous, args.strict, args.changed)
     show = None if args.quiet else term.progress
     outcome = make_record(job, progress=show, sign=_signer(Path(args.sign)) if args.sign else None)
@@ -66,9 +73,13 @@ def _sign(pdf: bytes, box, key: Path, project, progress) -> bytes:
         password = key_password(os.environ, interactive=sys.stdin.isatty(), prompt=getpass.getpass)
         d = project.document
         return sign_package(
-            pdf, key, password, page=box[0], box=box[1],
+            pdf,
+            key,
+            password,
+            page=box[0],
+            box=box[1],
             font_path=register_fonts().regular_path,
             reason=f"Calculation record {d.number} revision {d.revision}".strip(),
-        )  # fmt: skip
+        )
     except SigningError as exc:
         raise CalcdocError(f"{key}: cannot sign: {exc}") from None

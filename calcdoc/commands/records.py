@@ -304,12 +304,24 @@ def _outcome(
     d = project.document
     run, failing, worst, where = check_figures(doc)
     return RecordOutcome(
-        project=str(path), status=0, action=action, warnings=tuple(warnings),
-        package=str(out), package_bytes=len(pdf), package_sha256=hashlib.sha256(pdf).hexdigest(),
-        input_sha256=project.sha256, previous=previous or "", number=d.number,
-        revision=d.revision, title=d.title, signoff=signoff_status(project), checks_run=run,
-        checks_failing=failing, worst_utilisation=worst, worst_at=where,
-    )  # fmt: skip
+        project=str(path),
+        status=0,
+        action=action,
+        warnings=tuple(warnings),
+        package=str(out),
+        package_bytes=len(pdf),
+        package_sha256=hashlib.sha256(pdf).hexdigest(),
+        input_sha256=project.sha256,
+        previous=previous or "",
+        number=d.number,
+        revision=d.revision,
+        title=d.title,
+        signoff=signoff_status(project),
+        checks_run=run,
+        checks_failing=failing,
+        worst_utilisation=worst,
+        worst_at=where,
+    )
 
 
 def failed(path: str, message: str) -> RecordOutcome:
@@ -319,8 +331,9 @@ def failed(path: str, message: str) -> RecordOutcome:
         sha = hashlib.sha256(source.read_bytes()).hexdigest() if source.is_file() else ""
     except OSError:
         sha = ""
-    return RecordOutcome(project=str(path), status=2, action="not built", message=message,
-                         input_sha256=sha)  # fmt: skip
+    return RecordOutcome(
+        project=str(path), status=2, action="not built", message=message, input_sha256=sha
+    )
 
 
 def error_message(exc: BaseException, file: str) -> str:

@@ -20,10 +20,23 @@ from xml.sax.saxutils import escape
 from calcdoc.commands.records import RecordOutcome
 
 CSV_COLUMNS = (
-    "record", "project", "document", "revision", "title", "signoff", "result",
-    "checks_run", "checks_failing", "checks_result", "worst_utilisation_percent", "worst_at",
-    "input_sha256", "package", "package_sha256", "message",
-)  # fmt: skip
+    "record",
+    "project",
+    "document",
+    "revision",
+    "title",
+    "signoff",
+    "result",
+    "checks_run",
+    "checks_failing",
+    "checks_result",
+    "worst_utilisation_percent",
+    "worst_at",
+    "input_sha256",
+    "package",
+    "package_sha256",
+    "message",
+)
 
 
 def relative(path: str, folder: Path) -> str:
@@ -60,12 +73,26 @@ def register_csv(outcomes: Sequence[RecordOutcome], folder: Path) -> bytes:
     w.writerow(CSV_COLUMNS)
     for i, o in enumerate(outcomes, 1):
         built = o.action != "not built"
-        w.writerow([
-            i, relative(o.project, folder), o.number, o.revision, o.title, o.signoff, o.action,
-            o.checks_run if built else "", o.checks_failing if built else "", _checks_result(o),
-            _percent(o.worst_utilisation), o.worst_at, o.input_sha256,
-            relative(o.package, folder), o.package_sha256, _message(o, folder),
-        ])  # fmt: skip
+        w.writerow(
+            [
+                i,
+                relative(o.project, folder),
+                o.number,
+                o.revision,
+                o.title,
+                o.signoff,
+                o.action,
+                o.checks_run if built else "",
+                o.checks_failing if built else "",
+                _checks_result(o),
+                _percent(o.worst_utilisation),
+                o.worst_at,
+                o.input_sha256,
+                relative(o.package, folder),
+                o.package_sha256,
+                _message(o, folder),
+            ]
+        )
     return buf.getvalue().encode("utf-8")
 
 
@@ -124,24 +151,39 @@ def register_pdf(outcomes: Sequence[RecordOutcome], folder: Path, name: str) -> 
 
     def table(headers: list[str], rows: list[list], widths: list[float], extra=()) -> Table:
         scale = width / sum(widths)
-        t = Table([[Paragraph(h, head) for h in headers], *rows],
-                  colWidths=[w * scale for w in widths], repeatRows=1)  # fmt: skip
-        t.setStyle(TableStyle([
-            ("FONT", (0, 0), (-1, -1), fonts.regular, 8),  # the table's own default is Helvetica
-            ("BACKGROUND", (0, 0), (-1, 0), colour["accent"]),
-            ("VALIGN", (0, 0), (-1, -1), "TOP"),
-            ("LINEBELOW", (0, 1), (-1, -1), 0.25, colors.HexColor("#b8c2cc")),
-            ("TOPPADDING", (0, 0), (-1, -1), 2.5), ("BOTTOMPADDING", (0, 0), (-1, -1), 2.5),
-            ("LEFTPADDING", (0, 0), (-1, -1), 3), ("RIGHTPADDING", (0, 0), (-1, -1), 3),
-            *extra,
-        ]))  # fmt: skip
+        t = Table(
+            [[Paragraph(h, head) for h in headers], *rows],
+            colWidths=[w * scale for w in widths],
+            repeatRows=1,
+        )
+        t.setStyle(
+            TableStyle(
+                [
+                    (
+                        "FONT",
+                        (0, 0),
+                        (-1, -1),
+                        fonts.regular,
+                        8,
+                    ),  # the table's own default is Helvetica
+                    ("BACKGROUND", (0, 0), (-1, 0), colour["accent"]),
+                    ("VALIGN", (0, 0), (-1, -1), "TOP"),
+                    ("LINEBELOW", (0, 1), (-1, -1), 0.25, colors.HexColor("#b8c2cc")),
+                    ("TOPPADDING", (0, 0), (-1, -1), 2.5),
+                    ("BOTTOMPADDING", (0, 0), (-1, -1), 2.5),
+                    ("LEFTPADDING", (0, 0), (-1, -1), 3),
+                    ("RIGHTPADDING", (0, 0), (-1, -1), 3),
+                    *extra,
+                ]
+            )
+        )
         return t
 
     story: list = [
         Paragraph(
             "Register of calculation records",
             style(fonts.bold, 15, textColor=colour["accent"], spaceAfter=4),
-        ),  # fmt: skip
+        ),
         p(f"Set: {name}    ·    {summary_line(outcomes)}", style(pt=9)),
         Spacer(1, 5 * mm),
     ]
@@ -150,23 +192,50 @@ def register_pdf(outcomes: Sequence[RecordOutcome], folder: Path, name: str) -> 
         built = o.action != "not built"
         result = _checks_result(o)
         worst = f"{_percent(o.worst_utilisation)} %" if o.worst_utilisation is not None else ""
-        rows.append([
-            p(str(i)), p(o.number or "—"), p(o.revision or "—"),
-            p(o.title if built else relative(o.project, folder)), p(o.signoff),
-            p(str(o.checks_run) if built else ""), p(str(o.checks_failing) if built else ""),
-            p(worst), p(o.worst_at, small), p(result or "—", style(fonts.bold)),
-            p({"built": "built", "unchanged": "unchanged, not rebuilt"}.get(o.action, "NOT BUILT"),
-              style(fonts.bold, textColor=colour["fail"]) if not built else body),
-        ])  # fmt: skip
+        rows.append(
+            [
+                p(str(i)),
+                p(o.number or "—"),
+                p(o.revision or "—"),
+                p(o.title if built else relative(o.project, folder)),
+                p(o.signoff),
+                p(str(o.checks_run) if built else ""),
+                p(str(o.checks_failing) if built else ""),
+                p(worst),
+                p(o.worst_at, small),
+                p(result or "—", style(fonts.bold)),
+                p(
+                    {"built": "built", "unchanged": "unchanged, not rebuilt"}.get(
+                        o.action, "NOT BUILT"
+                    ),
+                    style(fonts.bold, textColor=colour["fail"]) if not built else body,
+                ),
+            ]
+        )
         if not built:
             marks.append(("BACKGROUND", (0, i), (-1, i), colour["fail_fill"]))
         elif result == "FAIL":
             marks += [("BACKGROUND", (c, i), (c, i), colour["fail_fill"]) for c in (6, 9)]
-    story.append(table(
-        ["No.", "Document", "Rev.", "Title", "Sign-off", "Checks run", "Checks failing",
-         "Worst utilisation", "at (check [case])", "Checks", "This run"],
-        rows, [3.5, 9, 3.5, 27, 7.5, 5, 5.5, 7, 19, 5, 8.5], marks,
-    ))  # fmt: skip
+    story.append(
+        table(
+            [
+                "No.",
+                "Document",
+                "Rev.",
+                "Title",
+                "Sign-off",
+                "Checks run",
+                "Checks failing",
+                "Worst utilisation",
+                "at (check [case])",
+                "Checks",
+                "This run",
+            ],
+            rows,
+            [3.5, 9, 3.5, 27, 7.5, 5, 5.5, 7, 19, 5, 8.5],
+            marks,
+        )
+    )
 
     notes = [(i, o) for i, o in enumerate(outcomes, 1) if o.action == "not built"]
     if notes:
@@ -179,24 +248,32 @@ def register_pdf(outcomes: Sequence[RecordOutcome], folder: Path, name: str) -> 
         Spacer(1, 1.5 * mm),
     ]
     files = [
-        [p(str(i)), p(relative(o.project, folder), small), p(o.input_sha256 or "—", mono),
-         p(relative(o.package, folder) or "—", small), p(o.package_sha256 or "—", mono)]
+        [
+            p(str(i)),
+            p(relative(o.project, folder), small),
+            p(o.input_sha256 or "—", mono),
+            p(relative(o.package, folder) or "—", small),
+            p(o.package_sha256 or "—", mono),
+        ]
         for i, o in enumerate(outcomes, 1)
-    ]  # fmt: skip
+    ]
     story.append(
         table(
             ["No.", "Project file", "SHA-256 of input", "Package", "SHA-256 of package"],
             files,
             [3, 17, 40, 17, 40],
-        )  # fmt: skip
+        )
     )
     story += [
         Spacer(1, 4 * mm),
-        p("Each package in this register is a calculation record for linear steady-state (DC) "
-          "behaviour only. Every record must be reviewed by a qualified engineer before it is "
-          "relied on; local codes and licensed engineering practice govern. A SHA-256 identifies "
-          "the file as listed: a changed file has a different one.", small),
-    ]  # fmt: skip
+        p(
+            "Each package in this register is a calculation record for linear steady-state (DC) "
+            "behaviour only. Every record must be reviewed by a qualified engineer before it is "
+            "relied on; local codes and licensed engineering practice govern. A SHA-256 identifies "
+            "the file as listed: a changed file has a different one.",
+            small,
+        ),
+    ]
 
     class Sheets(Canvas):
         """Holds every page back so that each footer can say "Sheet N of M"."""
@@ -229,10 +306,17 @@ def register_pdf(outcomes: Sequence[RecordOutcome], folder: Path, name: str) -> 
 
     buf = io.BytesIO()
     doc = SimpleDocTemplate(
-        buf, pagesize=size, leftMargin=margin, rightMargin=margin, topMargin=margin,
-        bottomMargin=16 * mm, title=f"Register of calculation records: {name}",
-        creator=f"calcdoc {__version__}", invariant=1, initialFontName=fonts.regular,
+        buf,
+        pagesize=size,
+        leftMargin=margin,
+        rightMargin=margin,
+        topMargin=margin,
+        bottomMargin=16 * mm,
+        title=f"Register of calculation records: {name}",
+        creator=f"calcdoc {__version__}",
+        invariant=1,
+        initialFontName=fonts.regular,
         pageCompression=1,
-    )  # fmt: skip
+    )
     doc.build(story, canvasmaker=Sheets)
     return buf.getvalue()

@@ -219,8 +219,15 @@ def parameter_jacobian(st: Structure, p: np.ndarray, x: np.ndarray):
     return csr_matrix((vals, (rows, cols)), shape=(P, n))
 
 
-def adjoint(st: Structure, p: np.ndarray, x: np.ndarray, gx: np.ndarray, gp: np.ndarray,
-            fac: Factor | None = None, R=None) -> np.ndarray:  # fmt: skip
+def adjoint(
+    st: Structure,
+    p: np.ndarray,
+    x: np.ndarray,
+    gx: np.ndarray,
+    gp: np.ndarray,
+    fac: Factor | None = None,
+    R=None,
+) -> np.ndarray:
     """dy/dp (P,) of one output y with ∂y/∂x = ``gx`` (n,) and explicit ∂y/∂p = ``gp`` (P,)."""
     fac = fac or factor(st, p)
     R = parameter_jacobian(st, p, x) if R is None else R

@@ -59,8 +59,15 @@ def branches(net: Netlist, sol: Solution) -> Branches:
     v = nv[net.a] - nv[net.b]
     i = apply_map(st.current, pe, x, m)
     law = apply_map(st.law_voltage, pe, x, m)
-    return Branches(nv, v, i, v * i, law, law_fixes_voltage=st.law_fixes_voltage,
-                    energy=stored_energy(net, v, i))  # fmt: skip
+    return Branches(
+        nv,
+        v,
+        i,
+        v * i,
+        law,
+        law_fixes_voltage=st.law_fixes_voltage,
+        energy=stored_energy(net, v, i),
+    )
 
 
 def stored_energy(net: Netlist, v: np.ndarray, i: np.ndarray) -> np.ndarray:

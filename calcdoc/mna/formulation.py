@@ -17,9 +17,15 @@ from calcdoc.mna.stamps import Structure, float_system, structure
 from calcdoc.results import Coefficient, Equation, Formulation, Netlist, Term
 
 __all__ = [
-    "Coefficient", "Equation", "Formulation", "Term",
-    "current_unknowns", "formulation", "stamps", "unknown_names",
-]  # fmt: skip
+    "Coefficient",
+    "Equation",
+    "Formulation",
+    "Term",
+    "current_unknowns",
+    "formulation",
+    "stamps",
+    "unknown_names",
+]
 
 
 def current_unknowns(net: Netlist) -> list[int]:
@@ -61,15 +67,24 @@ def formulation(net: Netlist | Structure) -> Formulation:
     rhs: list[list[Term]] = [[] for _ in range(st.n)]
     A = st.A
     for r, c, s, nu, de, e in zip(
-        A.row.tolist(), A.col.tolist(), A.sign.tolist(), A.num.tolist(), A.den.tolist(),
-        A.elem.tolist(), strict=True,
-    ):  # fmt: skip
+        A.row.tolist(),
+        A.col.tolist(),
+        A.sign.tolist(),
+        A.num.tolist(),
+        A.den.tolist(),
+        A.elem.tolist(),
+        strict=True,
+    ):
         lhs[r].append(Term(coefficient(s, nu, de), unknowns[c], net.names[e]))
     z = st.z
     for r, s, nu, de, e in zip(
-        z.row.tolist(), z.sign.tolist(), z.num.tolist(), z.den.tolist(), z.elem.tolist(),
+        z.row.tolist(),
+        z.sign.tolist(),
+        z.num.tolist(),
+        z.den.tolist(),
+        z.elem.tolist(),
         strict=True,
-    ):  # fmt: skip
+    ):
         rhs[r].append(Term(coefficient(s, nu, de), None, net.names[e]))
     owner = {int(st.col[j]): j for j in np.flatnonzero(st.col >= 0).tolist()}
     eqs = []

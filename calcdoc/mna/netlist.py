@@ -69,6 +69,16 @@ def netlist(
         st.append(state or (kind.states[0] if kind.states else ""))
     floats = np.fromiter((float(v) for v in vals), dtype=float, count=len(vals))
     return Netlist(
-        nodes, names, tuple(e.type for e in els), a, b, vals, cn, ce, floats,
-        tuple(st) if any(st) else (), tuple(more), tuple(absent),
-    )  # fmt: skip
+        nodes,
+        names,
+        tuple(e.type for e in els),
+        a,
+        b,
+        vals,
+        cn,
+        ce,
+        floats,
+        tuple(st) if any(st) else (),
+        tuple(more),
+        tuple(absent),
+    )

@@ -65,8 +65,9 @@ def _tests(net: Netlist, br: Branches, j: int) -> list[tuple[Knee, StateTest]]:
             value, qty = v, "voltage"
             tol = ROUNDING * max(big_v, abs(float(thr)))
         ok = margin >= 0 if exact else float(margin) >= -tol
-        out.append((knee, StateTest(text, qty, bound, float(value), float(limit), float(margin),
-                                    bool(ok))))  # fmt: skip
+        out.append(
+            (knee, StateTest(text, qty, bound, float(value), float(limit), float(margin), bool(ok)))
+        )
     out.sort(key=lambda kt: kt[1].quantity != "current")  # the conducting piece's test first
     return out
 

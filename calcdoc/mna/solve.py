@@ -171,8 +171,9 @@ def solve(net: Netlist, *, keep_equations: bool | None = None) -> Solution:
                 np.array([[float(v) for v in row] for row in Aq]),
                 np.array([float(v) for v in zq]),
             )
-            return Solution(names, x, tuple(got), "exact rational", None, None, (), form, dense,
-                            None, 0, limits)  # fmt: skip
+            return Solution(
+                names, x, tuple(got), "exact rational", None, None, (), form, dense, None, 0, limits
+            )
     if n <= DENSE_LIMIT:
         A = np.zeros((n, n))
         np.add.at(A, (rows, cols), vals)
@@ -191,8 +192,9 @@ def solve(net: Netlist, *, keep_equations: bool | None = None) -> Solution:
             f"(condition number {cond:.3g} after equilibration): results may carry large "
             "rounding errors"
         )
-    return Solution(names, x, None, method, residual, cond, tuple(warnings), form, dense,
-                    err, steps, limits)  # fmt: skip
+    return Solution(
+        names, x, None, method, residual, cond, tuple(warnings), form, dense, err, steps, limits
+    )
 
 
 def _refine(residual, solve_scaled, z: np.ndarray, x: np.ndarray, anorm: float):
@@ -282,8 +284,9 @@ def _sparse(rows, cols, vals, z, n: int, names, residual) -> tuple[np.ndarray, t
     x = solve_scaled(z)
     if not np.all(np.isfinite(x)):
         raise _sparse_singular(As, c, names)
-    inv = LinearOperator((n, n), matvec=lu.solve, rmatvec=lambda y: lu.solve(y, trans="T"),
-                         dtype=float)  # fmt: skip
+    inv = LinearOperator(
+        (n, n), matvec=lu.solve, rmatvec=lambda y: lu.solve(y, trans="T"), dtype=float
+    )
     inv.matmat = lambda X: np.column_stack([lu.solve(col) for col in X.T])  # type: ignore[method-assign]
     try:
         cond = float(onenormest(As) * onenormest(inv))

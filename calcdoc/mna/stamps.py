@@ -398,9 +398,20 @@ def _structure(net: Netlist) -> Structure:
             lv.add(J, aj, 1.0, one, one, J)
             lv.add(J, bj, -1.0, one, one, J)
     return Structure(
-        net, laws, mode, col, n, tuple(more_symbols), tuple(p),
-        A.result(), z.result(), cur.result(), lv.result(), fixes, tuple(group_list),
-    )  # fmt: skip
+        net,
+        laws,
+        mode,
+        col,
+        n,
+        tuple(more_symbols),
+        tuple(p),
+        A.result(),
+        z.result(),
+        cur.result(),
+        lv.result(),
+        fixes,
+        tuple(group_list),
+    )
 
 
 def _param_index(

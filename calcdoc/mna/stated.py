@@ -78,8 +78,12 @@ class StateSolver:
         own = self._key(self.net)
         K = len(p)
         if not len(self.pcs):
-            return StatedBatch(solve_batch(self.st, p), (own,), np.zeros(K, dtype=np.int64),
-                               np.zeros(K, dtype=np.int64))  # fmt: skip
+            return StatedBatch(
+                solve_batch(self.st, p),
+                (own,),
+                np.zeros(K, dtype=np.int64),
+                np.zeros(K, dtype=np.int64),
+            )
         pe = self.st.extended(p)
         try:
             b = solve_batch(self.st, p)

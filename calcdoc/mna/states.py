@@ -103,8 +103,14 @@ def pieces(st: Structure) -> Pieces:
             given = (j, knee.slope) not in absent
             sl.append(index[(net.names[j], knee.slope)] if given else -1)
     i64 = np.int64
-    return Pieces(np.array(el, dtype=i64), tuple(kn), tuple(off), np.array(dr),
-                  np.array(th, dtype=i64), np.array(sl, dtype=i64))  # fmt: skip
+    return Pieces(
+        np.array(el, dtype=i64),
+        tuple(kn),
+        tuple(off),
+        np.array(dr),
+        np.array(th, dtype=i64),
+        np.array(sl, dtype=i64),
+    )
 
 
 def searched(net: Netlist) -> bool:
@@ -114,9 +120,11 @@ def searched(net: Netlist) -> bool:
 
 def with_states(net: Netlist, states: dict[int, str]) -> Netlist:
     """The netlist with some elements' states replaced."""
-    full = list(net.states) if net.states else [
-        KINDS[t].states[0] if KINDS[t].states else "" for t in net.types
-    ]  # fmt: skip
+    full = (
+        list(net.states)
+        if net.states
+        else [KINDS[t].states[0] if KINDS[t].states else "" for t in net.types]
+    )
     changed = False
     for j, s in states.items():
         changed |= full[j] != s
@@ -438,6 +446,15 @@ def _every(net: Netlist, pcs: Pieces, pe: np.ndarray, pivots: int, ray: np.ndarr
 
 
 __all__ = [
-    "BaseSystem", "Found", "Pieces", "allowance", "complementarity", "find_states", "holds",
-    "margins", "pieces", "searched", "with_states",
-]  # fmt: skip
+    "BaseSystem",
+    "Found",
+    "Pieces",
+    "allowance",
+    "complementarity",
+    "find_states",
+    "holds",
+    "margins",
+    "pieces",
+    "searched",
+    "with_states",
+]

@@ -112,8 +112,10 @@ def closed_form(form: Formulation | None, values: Mapping[str, Number]) -> Close
     except (ValueError, ZeroDivisionError, sympy.matrices.exceptions.NonInvertibleMatrixError):
         return None
     exprs = tuple(sympy.factor(sympy.cancel(sympy.together(e))) for e in x)
-    subs = {sym[k]: sympy.Rational(str(values[k])) if not isinstance(values[k], float)
-            else values[k] for k in names}  # fmt: skip
+    subs = {
+        sym[k]: sympy.Rational(str(values[k])) if not isinstance(values[k], float) else values[k]
+        for k in names
+    }
     vals = tuple(float(e.subs(subs)) for e in exprs)
     latex_names = {sym[k]: sympy.Symbol(_latex_name(k)) for k in names}
     return ClosedForm(

@@ -267,9 +267,15 @@ def parse_style(data: dict[str, Any], path: Path, project_dir: Path) -> Style:
             )
         logo = read_image(logo_path, "logo", str(path), "logo")
     return Style(
-        name=path.stem, paper=paper, margin_mm=margins, font_size=float(size),  # type: ignore[arg-type]
-        organisation=org, logo=logo, colours=colours, sections=frozenset(secs),
-    )  # fmt: skip
+        name=path.stem,
+        paper=paper,
+        margin_mm=margins,
+        font_size=float(size),  # type: ignore[arg-type]
+        organisation=org,
+        logo=logo,
+        colours=colours,
+        sections=frozenset(secs),
+    )
 
 
 def load_style(name: str, project_dir: Path, file: str) -> Style:

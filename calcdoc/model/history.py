@@ -100,68 +100,120 @@ def history_findings(project: Project) -> tuple[HistoryFinding, ...]:
         where = f"document.history[{i}]"
         rev = entry.revision
         if rev in seen:
-            out.append(HistoryFinding("error", f"{where}.revision",
-                                      f"revision {rev!r} appears twice in the history "
-                                      f"(entries {seen[rev] + 1} and {i + 1})"))  # fmt: skip
+            out.append(
+                HistoryFinding(
+                    "error",
+                    f"{where}.revision",
+                    f"revision {rev!r} appears twice in the history "
+                    f"(entries {seen[rev] + 1} and {i + 1})",
+                )
+            )
         else:
             seen[rev] = i
         key = revision_key(rev)
         if key is None:
-            out.append(HistoryFinding("warning", f"{where}.revision",
-                                      f"revision {rev!r} is not letters, digits or letters "
-                                      "followed by digits; its order is not checked"))  # fmt: skip
+            out.append(
+                HistoryFinding(
+                    "warning",
+                    f"{where}.revision",
+                    f"revision {rev!r} is not letters, digits or letters "
+                    "followed by digits; its order is not checked",
+                )
+            )
         elif last_key is not None and key < last_key:
-            out.append(HistoryFinding("error", f"{where}.revision",
-                                      f"revision {rev!r} is listed after {last_rev!r}, "
-                                      "which comes later in revision order"))  # fmt: skip
+            out.append(
+                HistoryFinding(
+                    "error",
+                    f"{where}.revision",
+                    f"revision {rev!r} is listed after {last_rev!r}, "
+                    "which comes later in revision order",
+                )
+            )
         elif last_key is not None and key == last_key and rev != last_rev:
-            out.append(HistoryFinding("error", f"{where}.revision",
-                                      f"revision {rev!r} is the same revision as {last_rev!r} "
-                                      "written differently"))  # fmt: skip
+            out.append(
+                HistoryFinding(
+                    "error",
+                    f"{where}.revision",
+                    f"revision {rev!r} is the same revision as {last_rev!r} written differently",
+                )
+            )
         if key is not None:
             last_key, last_rev = key, rev
         if entry.date is not None:
             if last_date is not None and entry.date < last_date:
-                out.append(HistoryFinding("error", f"{where}.date",
-                                          f"revision {rev!r} is dated {entry.date.isoformat()}, "
-                                          f"before revision {last_date_rev!r} "
-                                          f"({last_date.isoformat()})"))  # fmt: skip
+                out.append(
+                    HistoryFinding(
+                        "error",
+                        f"{where}.date",
+                        f"revision {rev!r} is dated {entry.date.isoformat()}, "
+                        f"before revision {last_date_rev!r} "
+                        f"({last_date.isoformat()})",
+                    )
+                )
             last_date, last_date_rev = entry.date, rev
     current = doc.revision
     if not current:
         if history:
-            out.append(HistoryFinding("warning", "document.revision",
-                                      "the history lists revisions but document.revision "
-                                      "is not stated"))  # fmt: skip
+            out.append(
+                HistoryFinding(
+                    "warning",
+                    "document.revision",
+                    "the history lists revisions but document.revision is not stated",
+                )
+            )
         return tuple(out)
     if current in seen:
         index = seen[current]
         entry = history[index]
         if index != len(history) - 1:
             later = ", ".join(repr(h.revision) for h in history[index + 1 :])
-            out.append(HistoryFinding("error", f"document.history[{index}].revision",
-                                      f"the current revision {current!r} is followed in the "
-                                      f"history by {later}"))  # fmt: skip
+            out.append(
+                HistoryFinding(
+                    "error",
+                    f"document.history[{index}].revision",
+                    f"the current revision {current!r} is followed in the history by {later}",
+                )
+            )
         if entry.date is not None and doc.date is not None and entry.date != doc.date:
-            out.append(HistoryFinding("warning", f"document.history[{index}].date",
-                                      f"the history dates the current revision {current!r} "
-                                      f"{entry.date.isoformat()}, the document "
-                                      f"{doc.date.isoformat()}"))  # fmt: skip
+            out.append(
+                HistoryFinding(
+                    "warning",
+                    f"document.history[{index}].date",
+                    f"the history dates the current revision {current!r} "
+                    f"{entry.date.isoformat()}, the document "
+                    f"{doc.date.isoformat()}",
+                )
+            )
         return tuple(out)
     # The current revision is stated only in [document]: it must follow the history.
     key = revision_key(current)
     if key is None:
-        out.append(HistoryFinding("warning", "document.revision",
-                                  f"revision {current!r} is not letters, digits or letters "
-                                  "followed by digits; its order is not checked"))  # fmt: skip
+        out.append(
+            HistoryFinding(
+                "warning",
+                "document.revision",
+                f"revision {current!r} is not letters, digits or letters "
+                "followed by digits; its order is not checked",
+            )
+        )
     elif last_key is not None and key <= last_key:
-        out.append(HistoryFinding("error", "document.revision",
-                                  f"the current revision {current!r} does not come after the "
-                                  f"last revision in the history, {last_rev!r}"))  # fmt: skip
+        out.append(
+            HistoryFinding(
+                "error",
+                "document.revision",
+                f"the current revision {current!r} does not come after the "
+                f"last revision in the history, {last_rev!r}",
+            )
+        )
     if doc.date is not None and last_date is not None and doc.date < last_date:
-        out.append(HistoryFinding("error", "document.date",
-                                  f"the document is dated {doc.date.isoformat()}, before "
-                                  f"revision {last_date_rev!r} ({last_date.isoformat()})"))  # fmt: skip
+        out.append(
+            HistoryFinding(
+                "error",
+                "document.date",
+                f"the document is dated {doc.date.isoformat()}, before "
+                f"revision {last_date_rev!r} ({last_date.isoformat()})",
+            )
+        )
     return tuple(out)
 
 

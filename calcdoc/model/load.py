@@ -103,11 +103,20 @@ MAX_SAMPLE_VALUES = 10_000_000
 #: Characters per text field, by key (``MAX_TEXT_CHARS`` for any other).
 MAX_TEXT_CHARS = 200
 TEXT_LIMITS = {
-    "number": 40, "revision": 20, "name": 100,
-    "description": 500, "source": 500, "basis": 500, "seal": 1_000, "template": 1_000,
-    "assumptions": 1_000, "references": 1_000,
-    "purpose": 10_000, "scope": 10_000, "conclusion": 10_000,
-}  # fmt: skip
+    "number": 40,
+    "revision": 20,
+    "name": 100,
+    "description": 500,
+    "source": 500,
+    "basis": 500,
+    "seal": 1_000,
+    "template": 1_000,
+    "assumptions": 1_000,
+    "references": 1_000,
+    "purpose": 10_000,
+    "scope": 10_000,
+    "conclusion": 10_000,
+}
 
 
 class _Faults:
@@ -164,9 +173,15 @@ def _kind(value: Any) -> str:
     if isinstance(value, float) and value in (float("inf"), float("-inf")):
         return "infinity (inf)"
     return {
-        str: "a string", bool: "true/false", int: "an integer", float: "a number",
-        list: "an array", dict: "a table", dt.date: "a date", dt.datetime: "a date-time",
-    }.get(type(value), type(value).__name__)  # fmt: skip
+        str: "a string",
+        bool: "true/false",
+        int: "an integer",
+        float: "a number",
+        list: "an array",
+        dict: "a table",
+        dt.date: "a date",
+        dt.datetime: "a date-time",
+    }.get(type(value), type(value).__name__)
 
 
 def _text(table: Mapping[str, Any], key: str, path: str, faults: _Faults, default: str = "") -> str:
@@ -822,12 +837,28 @@ def _element(
         text, expr = "", Literal(value, "")
     more = tuple(KeyValue(k, q.magnitude, t, x) for k, (q, t, x) in numbers.items() if k != main)
     return Element(
-        name=name, type=etype, nodes=(nodes[0], nodes[1]), value=value.magnitude,
-        value_text=text, value_expr=expr, control_nodes=control_nodes,
-        control_element=control_element, tolerance=tol, rating=rating, description=desc,
-        source=source, basis=basis, series=series, tcr=tcr, derating=derating, more=more,
-        state=state, main_given=main in numbers, windows=tuple(windows), symbol=symbol,
-    )  # fmt: skip
+        name=name,
+        type=etype,
+        nodes=(nodes[0], nodes[1]),
+        value=value.magnitude,
+        value_text=text,
+        value_expr=expr,
+        control_nodes=control_nodes,
+        control_element=control_element,
+        tolerance=tol,
+        rating=rating,
+        description=desc,
+        source=source,
+        basis=basis,
+        series=series,
+        tcr=tcr,
+        derating=derating,
+        more=more,
+        state=state,
+        main_given=main in numbers,
+        windows=tuple(windows),
+        symbol=symbol,
+    )
 
 
 def _no_value(kind) -> str:
@@ -933,9 +964,15 @@ def _across(raw: Any, faults: _Faults, nodes: set[str], declared_nodes: Any) -> 
         if lo is not None and hi is not None and lo.magnitude > hi.magnitude:
             faults.add(path, "'min' is above 'max'")
             continue
-        out.append(AcrossWindow(name, (pair[0], pair[1]), lo.magnitude if lo else None,
-                                hi.magnitude if hi else None,
-                                _text(spec, "description", path, faults)))  # fmt: skip
+        out.append(
+            AcrossWindow(
+                name,
+                (pair[0], pair[1]),
+                lo.magnitude if lo else None,
+                hi.magnitude if hi else None,
+                _text(spec, "description", path, faults),
+            )
+        )
     return tuple(out)
 
 

@@ -282,17 +282,23 @@ class Comparison:
             return out
 
         return {
-            "old": {"path": self.old_path, "revision": self.old_revision,
-                    "sha256": self.old_sha256},
-            "new": {"path": self.new_path, "revision": self.new_revision,
-                    "sha256": self.new_sha256},
+            "old": {
+                "path": self.old_path,
+                "revision": self.old_revision,
+                "sha256": self.old_sha256,
+            },
+            "new": {
+                "path": self.new_path,
+                "revision": self.new_revision,
+                "sha256": self.new_sha256,
+            },
             "changed": self.changed,
             "status_changes": rows(self.status_changes),
             "inputs": rows(self.inputs),
             "checks": rows(self.check_changes),
             "results": rows(self.results, ("delta", "relative")),
             "cases_compared": list(self.cases_compared),
-        }  # fmt: skip
+        }
 
 
 def _json_number(value: Any) -> Any:
@@ -392,7 +398,13 @@ def _diff_fields(section: str, subject: str, key: str, old: _Flat, new: _Flat) -
         )
         if ot == nt and not number_changed:
             continue
-        kind = "added" if ot is None and on is None else "removed" if nt is None and nn is None else "changed"  # fmt: skip
+        kind = (
+            "added"
+            if ot is None and on is None
+            else "removed"
+            if nt is None and nn is None
+            else "changed"
+        )
         full_key = f"{key}.{name}" if key else name
         out.append(InputChange(section, subject, name, kind, ot, nt, on, nn, full_key))
     return out
@@ -413,11 +425,16 @@ def _dataclass_fields(obj: Any, skip: tuple[str, ...] = ()) -> _Flat:
         elif hasattr(value, "isoformat"):
             text = value.isoformat()
         elif dataclasses.is_dataclass(value):
-            text = ", ".join(f"{g.name} {_frac_text(getattr(value, g.name))}"
-                             for g in dataclasses.fields(value))  # fmt: skip
+            text = ", ".join(
+                f"{g.name} {_frac_text(getattr(value, g.name))}" for g in dataclasses.fields(value)
+            )
         else:
             text = str(value)
-        number = float(value) if isinstance(value, (int, float)) and not isinstance(value, bool) else None  # fmt: skip
+        number = (
+            float(value)
+            if isinstance(value, (int, float)) and not isinstance(value, bool)
+            else None
+        )
         if hasattr(value, "numerator") and not isinstance(value, bool):
             number = float(value)
         out[f.name] = (text, number)
@@ -426,8 +443,13 @@ def _dataclass_fields(obj: Any, skip: tuple[str, ...] = ()) -> _Flat:
 
 def _input_changes(old: Project, new: Project) -> list[InputChange]:
     out: list[InputChange] = []
-    out += _diff_fields("document", "", "document", _dataclass_fields(old.document, ("history",)),
-                        _dataclass_fields(new.document, ("history",)))  # fmt: skip
+    out += _diff_fields(
+        "document",
+        "",
+        "document",
+        _dataclass_fields(old.document, ("history",)),
+        _dataclass_fields(new.document, ("history",)),
+    )
 
     def history(p: Project) -> dict[str, _Flat]:
         return {
@@ -450,8 +472,13 @@ def _input_changes(old: Project, new: Project) -> list[InputChange]:
         }
 
     out += _diff_fields("signoff", "", "signoff", signoff(old), signoff(new))
-    out += _diff_fields("circuit", "", "circuit", {"reference": (old.reference, None)},
-                        {"reference": (new.reference, None)})  # fmt: skip
+    out += _diff_fields(
+        "circuit",
+        "",
+        "circuit",
+        {"reference": (old.reference, None)},
+        {"reference": (new.reference, None)},
+    )
 
     def parameters(p: Project) -> dict[str, _Flat]:
         return {
@@ -497,22 +524,27 @@ def _input_changes(old: Project, new: Project) -> list[InputChange]:
         }
 
     out += _diff_named("case", "cases", cases(old), cases(new))
-    out += _diff_fields("analysis", "", "analysis", _dataclass_fields(old.analysis),
-                        _dataclass_fields(new.analysis))  # fmt: skip
+    out += _diff_fields(
+        "analysis", "", "analysis", _dataclass_fields(old.analysis), _dataclass_fields(new.analysis)
+    )
 
     def sweeps(p: Project) -> dict[str, _Flat]:
         return {
             (s.name or f"{s.target} sweep"): {
                 "target": (s.target, None),
-                "range": (f"{float(s.start):g} to {float(s.stop):g}, {s.points} points, {s.scale}", None),
+                "range": (
+                    f"{float(s.start):g} to {float(s.stop):g}, {s.points} points, {s.scale}",
+                    None,
+                ),
                 "outputs": (", ".join(s.outputs), None),
             }
             for s in p.sweeps
-        }  # fmt: skip
+        }
 
     out += _diff_named("sweep", "sweeps", sweeps(old), sweeps(new))
-    out += _diff_fields("report", "", "report", _dataclass_fields(old.report),
-                        _dataclass_fields(new.report))  # fmt: skip
+    out += _diff_fields(
+        "report", "", "report", _dataclass_fields(old.report), _dataclass_fields(new.report)
+    )
     if old.sha256 != new.sha256:
         out.append(InputChange("input file", "", "sha256", "changed", old.sha256, new.sha256))
     return out

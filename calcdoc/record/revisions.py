@@ -460,7 +460,11 @@ def _compare_pages(old: _View, new: _View) -> tuple[list, list, str | None]:
         return old_pages, new_pages, None
     for index, (a, b) in enumerate(zip(old_pages, new_pages, strict=True)):
         if not _Same(old, new)(a, b):
-            what = "its content" if not _Same(old, new)(a.get("/Contents"), b.get("/Contents")) else "its resources or size"  # fmt: skip
+            what = (
+                "its content"
+                if not _Same(old, new)(a.get("/Contents"), b.get("/Contents"))
+                else "its resources or size"
+            )
             return old_pages, new_pages, f"changes sheet {index + 1} ({what})"
     return old_pages, new_pages, "changes the page tree"
 

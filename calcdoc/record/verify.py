@@ -273,7 +273,9 @@ def _signature_findings(report: SignatureReport, identity_wanted: bool) -> list[
 def _hash_findings(source_sha: str, name: str, pdf: bytes, results: dict[str, Any]) -> Finding:
     printed = printed_input_hash(pdf)
     meta = metadata_input_hash(pdf)
-    recorded = results.get("input", {}).get("sha256") if isinstance(results.get("input"), dict) else None  # fmt: skip
+    recorded = (
+        results.get("input", {}).get("sha256") if isinstance(results.get("input"), dict) else None
+    )
     if printed is None:
         return Finding("input", FAIL, "The cover shows no 'SHA-256 of input' line.")
     if printed != source_sha:
@@ -410,7 +412,9 @@ def _results_findings(name: str, source: bytes, embedded: dict[str, Any]) -> lis
     try:
         fresh = calcdoc.to_json(calcdoc.solve(calcdoc.loads(source, name)))
     except ProjectError as exc:
-        return [Finding("results", FAIL, f"The embedded input is not a valid project: {exc.message}")]  # fmt: skip
+        return [
+            Finding("results", FAIL, f"The embedded input is not a valid project: {exc.message}")
+        ]
     except CalcdocError as exc:
         return [Finding("results", FAIL, f"The embedded input cannot be solved again: {exc}")]
     tool = embedded.get("tool")

@@ -96,22 +96,43 @@ def tolerance_section(lay: Layout) -> list[Flowable]:
     if env is not None:
         e = env.envelope
         out.append(sub("Envelope across operating cases"))
-        out.append(lay.paragraph("For each node voltage and element power, the lowest and highest "
-                                 "value over all cases and the case that gives it.", "small"))  # fmt: skip
-        rows = [(w.subject, f"{lay.num(w.min, 'V')} ({case_label(w.min_case)})",
-                 f"{lay.num(w.max, 'V')} ({case_label(w.max_case)})") for w in e.nodes]  # fmt: skip
+        out.append(
+            lay.paragraph(
+                "For each node voltage and element power, the lowest and highest "
+                "value over all cases and the case that gives it.",
+                "small",
+            )
+        )
+        rows = [
+            (
+                w.subject,
+                f"{lay.num(w.min, 'V')} ({case_label(w.min_case)})",
+                f"{lay.num(w.max, 'V')} ({case_label(w.max_case)})",
+            )
+            for w in e.nodes
+        ]
         out.append(lay.table(["Node", "Lowest (case)", "Highest (case)"], rows, [1.2, 2.5, 2.5]))
         out.append(Spacer(1, 4))
-        rows = [(w.subject, f"{lay.num(w.min, 'W')} ({case_label(w.min_case)})",
-                 f"{lay.num(w.max, 'W')} ({case_label(w.max_case)})") for w in e.powers]  # fmt: skip
+        rows = [
+            (
+                w.subject,
+                f"{lay.num(w.min, 'W')} ({case_label(w.min_case)})",
+                f"{lay.num(w.max, 'W')} ({case_label(w.max_case)})",
+            )
+            for w in e.powers
+        ]
         out.append(
             lay.table(["Element power", "Lowest (case)", "Highest (case)"], rows, [1.2, 2.5, 2.5])
         )
     s = lay.summary.checks
     if s.count and (env is not None or tol is not None):
         out.append(sub("Highest utilisation of each check"))
-        out.append(lay.paragraph("Over the whole check set: every case, as solved and at its "
-                                 "tolerance worst case.", "small"))  # fmt: skip
+        out.append(
+            lay.paragraph(
+                "Over the whole check set: every case, as solved and at its tolerance worst case.",
+                "small",
+            )
+        )
         best: dict[str, object] = {}
         for row in s.rows:
             u = row.utilization
@@ -123,11 +144,25 @@ def tolerance_section(lay: Layout) -> list[Flowable]:
             bad = [x for x in s.failed if x.check.id == row.check.id]  # type: ignore[attr-defined]
             if bad:
                 fails.append(len(rows))
-            rows.append((check_label(row.check), percent(row.utilization), place(row),  # type: ignore[attr-defined]
-                         "FAIL in " + ", ".join(dict.fromkeys(case_label(x.case) for x in bad))
-                         if bad else "PASS"))  # fmt: skip
-        out.append(lay.table(["Check", "Highest utilisation", "Where", "Status"], rows,
-                             [2, 1.1, 3, 1], fail_rows=fails, right=(1,)))  # fmt: skip
+            rows.append(
+                (
+                    check_label(row.check),
+                    percent(row.utilization),
+                    place(row),  # type: ignore[attr-defined]
+                    "FAIL in " + ", ".join(dict.fromkeys(case_label(x.case) for x in bad))
+                    if bad
+                    else "PASS",
+                )
+            )
+        out.append(
+            lay.table(
+                ["Check", "Highest utilisation", "Where", "Status"],
+                rows,
+                [2, 1.1, 3, 1],
+                fail_rows=fails,
+                right=(1,),
+            )
+        )
     if tol is not None:
         for i, (t, _case) in enumerate(zip(tol.per_case, r.cases, strict=True)):
             if t is None:
@@ -135,8 +170,10 @@ def tolerance_section(lay: Layout) -> list[Flowable]:
             res = lay.summary.resolutions[i]
             out.append(sub(f"Tolerance, case {case_label(t.case)}"))
             out.append(lay.paragraph(tolerance_method(t), "small"))
-            rows = [(q.name, q.kind, f"−{number(q.minus * 100)} % / +{number(q.plus * 100)} %")
-                    for q in t.quantities]  # fmt: skip
+            rows = [
+                (q.name, q.kind, f"−{number(q.minus * 100)} % / +{number(q.plus * 100)} %")
+                for q in t.quantities
+            ]
             out.append(lay.table(["Toleranced quantity", "Kind", "Band"], rows, [2, 1.2, 2]))
             out.append(Spacer(1, 4))
             names = [q.name for q in t.quantities]
@@ -156,38 +193,78 @@ def tolerance_section(lay: Layout) -> list[Flowable]:
                 if extreme:
                     row.append(found(x))
                 if mc:
-                    row += [lay.num(res.clip(x.mean, "V"), "V"), lay.num(res.clip(x.std, "V"), "V", 3),
-                            f"{lay.num(res.clip(x.p01, 'V'), 'V')} / {lay.num(res.clip(x.p99, 'V'), 'V')}"]  # fmt: skip
+                    row += [
+                        lay.num(res.clip(x.mean, "V"), "V"),
+                        lay.num(res.clip(x.std, "V"), "V", 3),
+                        f"{lay.num(res.clip(x.p01, 'V'), 'V')} / {lay.num(res.clip(x.p99, 'V'), 'V')}",
+                    ]
                 elif show_at:
-                    row += [", ".join(f"{k} {_dev(d)}" for k, d in zip(names, devs, strict=True))
-                            for devs in (x.min_at, x.max_at)]  # fmt: skip
+                    row += [
+                        ", ".join(f"{k} {_dev(d)}" for k, d in zip(names, devs, strict=True))
+                        for devs in (x.min_at, x.max_at)
+                    ]
                 rows.append(row)
-            widths = [1, 1, 1, 1] + ([1.1] if extreme else []) + (
-                [1, 1, 1.6] if mc else ([1.8, 1.8] if show_at else []))  # fmt: skip
+            widths = (
+                [1, 1, 1, 1]
+                + ([1.1] if extreme else [])
+                + ([1, 1, 1.6] if mc else ([1.8, 1.8] if show_at else []))
+            )
             out.append(lay.table(head, rows, widths, right=(1, 2, 3)))
             out.append(Spacer(1, 4))
-            rows = [(el, *(lay.num(res.clip(v, u), u) for v, u in
-                           ((d["power"].nominal, "W"), (d["power"].min, "W"), (d["power"].max, "W"))),
-                     *((found(d["power"]),) if extreme else ()),
-                     *(lay.num(res.clip(v, "A"), "A") for v in (d["current"].min, d["current"].max)))
-                    for el, d in t.elements.items()]  # fmt: skip
-            out.append(lay.table(["Element", "Power nominal", "Power lowest", "Power highest",
-                                  *(["Power found"] if extreme else []),
-                                  "Current lowest", "Current highest"], rows,
-                                 [1, 1, 1, 1, *([1.1] if extreme else []), 1, 1],
-                                 right=(1, 2, 3, 5, 6) if extreme else (1, 2, 3, 4, 5)))  # fmt: skip
+            rows = [
+                (
+                    el,
+                    *(
+                        lay.num(res.clip(v, u), u)
+                        for v, u in (
+                            (d["power"].nominal, "W"),
+                            (d["power"].min, "W"),
+                            (d["power"].max, "W"),
+                        )
+                    ),
+                    *((found(d["power"]),) if extreme else ()),
+                    *(lay.num(res.clip(v, "A"), "A") for v in (d["current"].min, d["current"].max)),
+                )
+                for el, d in t.elements.items()
+            ]
+            out.append(
+                lay.table(
+                    [
+                        "Element",
+                        "Power nominal",
+                        "Power lowest",
+                        "Power highest",
+                        *(["Power found"] if extreme else []),
+                        "Current lowest",
+                        "Current highest",
+                    ],
+                    rows,
+                    [1, 1, 1, 1, *([1.1] if extreme else []), 1, 1],
+                    right=(1, 2, 3, 5, 6) if extreme else (1, 2, 3, 4, 5),
+                )
+            )
             if t.checks and lay.has("checks"):
                 number_ = f"{lay.plan['checks'].number}.{i + 1}"
-                out.append(lay.paragraph(f"The design checks at this case's worst case are set "
-                                         f"out beside the checks as solved in {number_}.", "small"))  # fmt: skip
+                out.append(
+                    lay.paragraph(
+                        f"The design checks at this case's worst case are set "
+                        f"out beside the checks as solved in {number_}.",
+                        "small",
+                    )
+                )
             if t.histogram is not None:
                 label, edges, counts = t.histogram
                 if sum(n > 0 for n in counts) > 1:
                     out.append(lay.keep_together([Histogram(lay, label, edges, counts)]))
                 else:
-                    out.append(lay.paragraph(f"{label} does not vary across the samples (every "
-                                             "sample falls in one bin), so no distribution is "
-                                             "drawn.", "small"))  # fmt: skip
+                    out.append(
+                        lay.paragraph(
+                            f"{label} does not vary across the samples (every "
+                            "sample falls in one bin), so no distribution is "
+                            "drawn.",
+                            "small",
+                        )
+                    )
     return out
 
 
@@ -214,8 +291,11 @@ class Histogram(Flowable):
         c.setFont(f.regular, 7)
         c.drawString(x0, y0 - 10, eng(self.edges[0], "V", self.lay.sig))
         c.drawRightString(x0 + w, y0 - 10, eng(self.edges[-1], "V", self.lay.sig))
-        c.drawCentredString(x0 + w / 2, y0 - 20,
-                            f"{self.label}: distribution over {sum(self.counts)} Monte Carlo samples")  # fmt: skip
+        c.drawCentredString(
+            x0 + w / 2,
+            y0 - 20,
+            f"{self.label}: distribution over {sum(self.counts)} Monte Carlo samples",
+        )
 
 
 def sensitivity_section(lay: Layout) -> list[Flowable]:
@@ -225,15 +305,21 @@ def sensitivity_section(lay: Layout) -> list[Flowable]:
     by_method: dict[str, list[str]] = {}
     for s in items:
         by_method.setdefault(s.method, []).append(output_label(s.output))
-    how = {"closed form": "the exact derivative of the closed-form solution",
-           "adjoint": "the adjoint of the MNA system (one transposed solve per output)"}  # fmt: skip
+    how = {
+        "closed form": "the exact derivative of the closed-form solution",
+        "adjoint": "the adjoint of the MNA system (one transposed solve per output)",
+    }
     methods = "; ".join(
         f"for {', '.join(outs)} from {how.get(m, m)}" for m, outs in by_method.items()
     )
-    out.append(lay.paragraph(
-        "Normalised sensitivity S = (∂y/∂p)·(p/y): the per-cent change of each output for a 1 % "
-        "change of an element value or parameter, nominal case. Rows are ranked by the largest "
-        f"magnitude over the outputs; 0 means no dependence. Computed {methods}.", "small"))  # fmt: skip
+    out.append(
+        lay.paragraph(
+            "Normalised sensitivity S = (∂y/∂p)·(p/y): the per-cent change of each output for a 1 % "
+            "change of an element value or parameter, nominal case. Rows are ranked by the largest "
+            f"magnitude over the outputs; 0 means no dependence. Computed {methods}.",
+            "small",
+        )
+    )
     table: dict[tuple[str, str], dict[str, float]] = {}
     for s in items:
         for n, k, v in s.ranked:
@@ -242,12 +328,23 @@ def sensitivity_section(lay: Layout) -> list[Flowable]:
     per = -(-len(items) // -(-len(items) // 5))  # at most 5 outputs a table, evenly shared
     for start in range(0, len(items), per):
         chunk = items[start : start + per]
-        head = ["Quantity", "Kind", *(f"{output_label(s.output)} = {lay.num(s.value, output_unit(s.output))}"
-                                       for s in chunk)]  # fmt: skip
-        rows = [(n, k, *(signed(table[(n, k)].get(s.output, 0.0), lay.sig) for s in chunk))
-                for n, k in order]  # fmt: skip
-        out.append(lay.table(head, rows, [1.2, 0.9, *([1.2] * len(chunk))],
-                             right=tuple(range(2, 2 + len(chunk)))))  # fmt: skip
+        head = [
+            "Quantity",
+            "Kind",
+            *(
+                f"{output_label(s.output)} = {lay.num(s.value, output_unit(s.output))}"
+                for s in chunk
+            ),
+        ]
+        rows = [
+            (n, k, *(signed(table[(n, k)].get(s.output, 0.0), lay.sig) for s in chunk))
+            for n, k in order
+        ]
+        out.append(
+            lay.table(
+                head, rows, [1.2, 0.9, *([1.2] * len(chunk))], right=tuple(range(2, 2 + len(chunk)))
+            )
+        )
         out.append(Spacer(1, 4))
     return out[:-1]
 
@@ -279,11 +376,26 @@ def _plot(lay: Layout, sweep, output) -> Drawing:
         ax.labels.fontName = lay.fonts.regular
         ax.labels.fontSize = 7
     d.add(lp)
-    d.add(String(56, h - 12, f"{output_label(output)} against {sweep.target}",
-                 fontName=lay.fonts.bold, fontSize=8))  # fmt: skip
+    d.add(
+        String(
+            56,
+            h - 12,
+            f"{output_label(output)} against {sweep.target}",
+            fontName=lay.fonts.bold,
+            fontSize=8,
+        )
+    )
     if lims:
-        d.add(Line(w - 150, h - 9, w - 135, h - 9, strokeColor=colors.HexColor(lay.colour("fail")),
-                   strokeDashArray=[3, 2]))  # fmt: skip
+        d.add(
+            Line(
+                w - 150,
+                h - 9,
+                w - 135,
+                h - 9,
+                strokeColor=colors.HexColor(lay.colour("fail")),
+                strokeDashArray=[3, 2],
+            )
+        )
         d.add(String(w - 130, h - 12, "design limit", fontName=lay.fonts.regular, fontSize=7))
     d.add(Rect(0, 0, 0.1, 0.1, strokeColor=None, fillColor=None))
     return d
@@ -296,15 +408,31 @@ def sweeps_section(lay: Layout) -> list[Flowable]:
     for s in st.sweeps:
         out.append(sub(s.name or f"Sweep of {s.target}"))
         unit = s.unit
-        out.append(lay.paragraph(f"{s.target} from {swept(s.points[0], unit, lay.sig)} to "
-                                 f"{swept(s.points[-1], unit, lay.sig)} ({len(s.points)} points, "
-                                 f"{s.scale} scale); every point is a full solution.", "small"))  # fmt: skip
+        out.append(
+            lay.paragraph(
+                f"{s.target} from {swept(s.points[0], unit, lay.sig)} to "
+                f"{swept(s.points[-1], unit, lay.sig)} ({len(s.points)} points, "
+                f"{s.scale} scale); every point is a full solution.",
+                "small",
+            )
+        )
         plots = [_plot(lay, s, output) for output in s.series]
         if s.crossings:
-            rows = [(output_label(c.output), check_id_label(c.check), eng(c.limit, output_unit(c.output), lay.sig),
-                     swept(c.at, unit, lay.sig + 1), c.direction) for c in s.crossings]  # fmt: skip
-            table = lay.table(["Output", "Limit crossed", "Limit", f"{s.target} at the crossing",
-                               "Output is"], rows, [1.2, 1.8, 1, 1.6, 0.8])  # fmt: skip
+            rows = [
+                (
+                    output_label(c.output),
+                    check_id_label(c.check),
+                    eng(c.limit, output_unit(c.output), lay.sig),
+                    swept(c.at, unit, lay.sig + 1),
+                    c.direction,
+                )
+                for c in s.crossings
+            ]
+            table = lay.table(
+                ["Output", "Limit crossed", "Limit", f"{s.target} at the crossing", "Output is"],
+                rows,
+                [1.2, 1.8, 1, 1.6, 0.8],
+            )
         else:
             table = lay.paragraph("No design limit is crossed within the range.", "small")
         for p in plots[:-1]:
@@ -319,10 +447,26 @@ def preferred_section(lay: Layout) -> list[Flowable]:
     for i, f in enumerate(st.findings):
         if not f.in_series:
             fails.append(i)
-        rows.append((f.element, f.series, lay.num(f.value, "Ω"), "yes" if f.in_series else "NO",
-                     "—" if f.in_series else f"{lay.num(f.below, 'Ω')} / {lay.num(f.above, 'Ω')}"))  # fmt: skip
-    return [lay.section("preferred"),
-            lay.paragraph("Each element given a preferred-value series, checked against the "
-                          "series of IEC 60063; a value outside it is an open finding.", "small"),
-            lay.table(["Element", "Series", "Value", "In the series", "Nearest below / above"],
-                      rows, [1, 0.8, 1, 0.8, 2], fail_rows=fails)]  # fmt: skip
+        rows.append(
+            (
+                f.element,
+                f.series,
+                lay.num(f.value, "Ω"),
+                "yes" if f.in_series else "NO",
+                "—" if f.in_series else f"{lay.num(f.below, 'Ω')} / {lay.num(f.above, 'Ω')}",
+            )
+        )
+    return [
+        lay.section("preferred"),
+        lay.paragraph(
+            "Each element given a preferred-value series, checked against the "
+            "series of IEC 60063; a value outside it is an open finding.",
+            "small",
+        ),
+        lay.table(
+            ["Element", "Series", "Value", "In the series", "Nearest below / above"],
+            rows,
+            [1, 0.8, 1, 0.8, 2],
+            fail_rows=fails,
+        ),
+    ]

@@ -15,8 +15,17 @@ from calcdoc import __version__
 from calcdoc.report.layout import NBSP, Layout
 from calcdoc.report.text import printable
 
-LIBRARIES = ("numpy", "scipy", "sympy", "pint", "reportlab", "matplotlib", "pypdf",
-             "tomli", "pyHanko")  # fmt: skip
+LIBRARIES = (
+    "numpy",
+    "scipy",
+    "sympy",
+    "pint",
+    "reportlab",
+    "matplotlib",
+    "pypdf",
+    "tomli",
+    "pyHanko",
+)
 
 
 def wrap_listing(lines: list[str], columns: int) -> list[tuple[int | None, str]]:
@@ -33,8 +42,14 @@ def wrap_listing(lines: list[str], columns: int) -> list[tuple[int | None, str]]
             out.append((i, line))
             continue
         indent = line[: len(line) - len(line.lstrip(" "))] + "  "
-        parts = textwrap.wrap(line, width=columns, subsequent_indent=indent, break_on_hyphens=False,
-                              drop_whitespace=True, replace_whitespace=False) or [""]  # fmt: skip
+        parts = textwrap.wrap(
+            line,
+            width=columns,
+            subsequent_indent=indent,
+            break_on_hyphens=False,
+            drop_whitespace=True,
+            replace_whitespace=False,
+        ) or [""]
         out.append((i, parts[0]))
         out += [(None, p) for p in parts[1:]]
     return out
@@ -43,9 +58,14 @@ def wrap_listing(lines: list[str], columns: int) -> list[tuple[int | None, str]]
 def input_appendix(lay: Layout) -> list[Flowable]:
     p = lay.results.project
     out: list[Flowable] = [lay.section("appendix_input", f"Input file: {Path(p.path).name}")]
-    out.append(lay.paragraph(f"SHA-256 {p.sha256}; the same bytes are attached to this PDF. Long "
-                             "lines are wrapped at a space and continued, indented, without a "
-                             "line number.", "small"))  # fmt: skip
+    out.append(
+        lay.paragraph(
+            f"SHA-256 {p.sha256}; the same bytes are attached to this PDF. Long "
+            "lines are wrapped at a space and continued, indented, without a "
+            "line number.",
+            "small",
+        )
+    )
     style = lay.styles["mono"]
     lines = p.source.decode("utf-8").splitlines()
     digits = len(str(len(lines)))
@@ -62,12 +82,16 @@ def input_appendix(lay: Layout) -> list[Flowable]:
 
 
 def software_appendix(lay: Layout) -> list[Flowable]:
-    rows = [("calcdoc", __version__, "the calculation and this record"),
-            ("Python", platform.python_version(), "")]  # fmt: skip
+    rows = [
+        ("calcdoc", __version__, "the calculation and this record"),
+        ("Python", platform.python_version(), ""),
+    ]
     for lib in LIBRARIES:
         try:
             rows.append((lib, metadata.version(lib), ""))
         except metadata.PackageNotFoundError:
             rows.append((lib, "not installed", ""))
-    return [lay.section("appendix_software"),
-            lay.table(["Component", "Version", "Role"], rows, [2, 1.5, 3])]  # fmt: skip
+    return [
+        lay.section("appendix_software"),
+        lay.table(["Component", "Version", "Role"], rows, [2, 1.5, 3]),
+    ]

@@ -20,12 +20,19 @@ def checks_section(lay: Layout) -> list[Flowable]:
     sub = lay.subsections("checks")
     s = lay.summary.checks
     tol = s.at_tolerance > 0
-    out.append(lay.paragraph(
-        "Each rating and limit against the result: utilisation = value / limit (for a lower limit, "
-        "limit / value); margin = how far the value is inside the limit, negative when it fails."
-        + (" Each check is taken as solved and again at the case's tolerance worst case (the most "
-           "unfavourable value the tolerance analysis found); both must pass." if tol else ""),
-        "small"))  # fmt: skip
+    out.append(
+        lay.paragraph(
+            "Each rating and limit against the result: utilisation = value / limit (for a lower limit, "
+            "limit / value); margin = how far the value is inside the limit, negative when it fails."
+            + (
+                " Each check is taken as solved and again at the case's tolerance worst case (the most "
+                "unfavourable value the tolerance analysis found); both must pass."
+                if tol
+                else ""
+            ),
+            "small",
+        )
+    )
     by_case: dict[str, dict[str, list]] = {}
     for row in s.rows:
         by_case.setdefault(row.case, {}).setdefault(row.check.id, []).append(row)
@@ -33,8 +40,12 @@ def checks_section(lay: Layout) -> list[Flowable]:
         out.append(sub(f"Case {case_label(case.name)}"))
         checks = by_case.get(case.name, {})
         if not checks:
-            out.append(lay.paragraph("None stated: no ratings or limits are given, so there is "
-                                     "nothing to check in this case."))  # fmt: skip
+            out.append(
+                lay.paragraph(
+                    "None stated: no ratings or limits are given, so there is "
+                    "nothing to check in this case."
+                )
+            )
             continue
         rows, fails, n_fail, n_rows = [], [], 0, 0
         for pair in checks.values():
@@ -43,15 +54,22 @@ def checks_section(lay: Layout) -> list[Flowable]:
             ch = solved.check
             unit = UNITS[ch.quantity]
             rel = "≤" if ch.bound == "max" else "≥"
-            label = Paragraph(f"{lay.text(check_label(ch))}<br/><font size='{lay.style.font_size * 0.75:.2f}' "
-                              f"color='#555555'>{lay.text(ch.basis)}</font>", lay.styles["cell"])  # fmt: skip
+            label = Paragraph(
+                f"{lay.text(check_label(ch))}<br/><font size='{lay.style.font_size * 0.75:.2f}' "
+                f"color='#555555'>{lay.text(ch.basis)}</font>",
+                lay.styles["cell"],
+            )
             unit_res = unit if unit in ("A", "V", "W") else "V"
 
             def q(v: float, unit: str = unit, unit_res: str = unit_res, res=res) -> str:
                 return eng(res.clip(v, unit_res), unit, lay.sig)
 
-            row = [label, f"{rel} {eng(ch.limit, unit, lay.sig)}",
-                   f"{q(ch.value)} ({percent(ch.utilization)})", q(ch.margin)]  # fmt: skip
+            row = [
+                label,
+                f"{rel} {eng(ch.limit, unit, lay.sig)}",
+                f"{q(ch.value)} ({percent(ch.utilization)})",
+                q(ch.margin),
+            ]
             bad = [r for r in pair if not r.passed]
             n_fail += len(bad)
             n_rows += len(pair)
@@ -76,8 +94,16 @@ def checks_section(lay: Layout) -> list[Flowable]:
         head.append("Status")
         widths.append(0.75)
         marks = lay.marks([f"results.{case.name}.checks.{cid}" for cid in checks])
-        out.append(lay.table(head, rows, widths, fail_rows=fails, marks=marks,
-                             right=tuple(range(1, len(head) - 1))))  # fmt: skip
+        out.append(
+            lay.table(
+                head,
+                rows,
+                widths,
+                fail_rows=fails,
+                marks=marks,
+                right=tuple(range(1, len(head) - 1)),
+            )
+        )
         msg = f"{counted(n_rows, 'check')} in this case" + (
             " (as solved and at the worst case)" if tol else ""
         )

@@ -16,9 +16,11 @@ def _row_text(lay: Layout, row) -> str:
     c = row.check
     unit = UNITS[c.quantity]
     rel = "≤" if c.bound == "max" else "≥"
-    return (f"{check_label(c)} ({place(row)}): {eng(c.value, unit, lay.sig)} against {rel} "
-            f"{eng(c.limit, unit, lay.sig)}, {percent(c.utilization)} used, margin "
-            f"{eng(c.margin, unit, lay.sig)}")  # fmt: skip
+    return (
+        f"{check_label(c)} ({place(row)}): {eng(c.value, unit, lay.sig)} against {rel} "
+        f"{eng(c.limit, unit, lay.sig)}, {percent(c.utilization)} used, margin "
+        f"{eng(c.margin, unit, lay.sig)}"
+    )
 
 
 def conclusion_section(lay: Layout) -> list[Flowable]:
@@ -29,28 +31,48 @@ def conclusion_section(lay: Layout) -> list[Flowable]:
     out: list[Flowable] = [lay.section("conclusion")]
     where = f" ({lay.ref('checks')})" if lay.has("checks") else ""
     if not c.count:
-        out.append(lay.paragraph("No ratings or limits are stated, so there are no design checks: "
-                                 "the record shows the derived values and their consistency only."))  # fmt: skip
+        out.append(
+            lay.paragraph(
+                "No ratings or limits are stated, so there are no design checks: "
+                "the record shows the derived values and their consistency only."
+            )
+        )
     elif not c.failed:
         ref = f"; {lay.ref('checks')}" if lay.has("checks") else ""
-        out.append(lay.rich(f"<b>All {counted(c.count, 'check')} pass</b>"
-                            + lay.text(f" ({checks_run(lay).split(': ', 1)[1]}{ref}).")))  # fmt: skip
+        out.append(
+            lay.rich(
+                f"<b>All {counted(c.count, 'check')} pass</b>"
+                + lay.text(f" ({checks_run(lay).split(': ', 1)[1]}{ref}).")
+            )
+        )
     else:
-        out.append(lay.rich(lay.failing(f"{len(c.failed)} of {counted(c.count, 'check')} fail")
-                            + lay.text(f"{where}: the design does not meet its ratings and limits "
-                                       "as it stands, and the record is not fit for approval.")))  # fmt: skip
+        out.append(
+            lay.rich(
+                lay.failing(f"{len(c.failed)} of {counted(c.count, 'check')} fail")
+                + lay.text(
+                    f"{where}: the design does not meet its ratings and limits "
+                    "as it stands, and the record is not fit for approval."
+                )
+            )
+        )
         out += lay.bullets([_row_text(lay, x) + "." for x in c.failed])
     if c.worst is not None and not c.failed:
-        out.append(lay.paragraph("The smallest margin (the highest utilisation) is "
-                                 + _row_text(lay, c.worst) + "."))  # fmt: skip
+        out.append(
+            lay.paragraph(
+                "The smallest margin (the highest utilisation) is " + _row_text(lay, c.worst) + "."
+            )
+        )
     out.append(lay.paragraph("Consistency: " + consistency(lay) + "."))
     sweeps = stage(r, "sweeps")
     if sweeps is not None:
         from calcdoc.report.analysis_sections import output_label, swept
 
-        notes = [f"{output_label(x.output)} crosses the {check_id_label(x.check)} limit at "
-                 f"{sw.target} = {swept(x.at, sw.unit, lay.sig)}" for sw in sweeps.sweeps
-                 for x in sw.crossings]  # fmt: skip
+        notes = [
+            f"{output_label(x.output)} crosses the {check_id_label(x.check)} limit at "
+            f"{sw.target} = {swept(x.at, sw.unit, lay.sig)}"
+            for sw in sweeps.sweeps
+            for x in sw.crossings
+        ]
         if notes:
             out.append(lay.paragraph(f"Sweeps ({lay.ref('sweeps')}): " + "; ".join(notes) + "."))
     items = [f"The {counted(len(c.failed), 'failing check')} listed above"] if c.failed else []

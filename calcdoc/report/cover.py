@@ -99,8 +99,16 @@ class SignoffBlock(Flowable):
         c.drawString(table_w + 11, self.height - 9, "Seal / stamp")
         seal = lay.results.project.assets.seal
         if seal is not None:
-            c.drawImage(ImageReader(io.BytesIO(seal.data)), table_w + 12, 4, seal_w - 8,
-                        self.height - 18, preserveAspectRatio=True, anchor="c", mask="auto")  # fmt: skip
+            c.drawImage(
+                ImageReader(io.BytesIO(seal.data)),
+                table_w + 12,
+                4,
+                seal_w - 8,
+                self.height - 18,
+                preserveAspectRatio=True,
+                anchor="c",
+                mask="auto",
+            )
 
 
 def _clip(lay: Layout, text: str, room: float) -> str:
@@ -154,8 +162,10 @@ def cover(lay: Layout) -> list[Flowable]:
     out.append(Spacer(1, 8))
     out.append(lay.rich("<b>Revision history</b>"))
     if d.history:
-        rows = [(h.revision, h.date.isoformat() if h.date else "undated", h.description)
-                for h in d.history]  # fmt: skip
+        rows = [
+            (h.revision, h.date.isoformat() if h.date else "undated", h.description)
+            for h in d.history
+        ]
         out.append(lay.table(["Revision", "Date", "Description"], rows, [0.8, 1.0, 5]))
     else:
         out.append(lay.paragraph("None stated.", "small"))
@@ -166,8 +176,13 @@ def cover(lay: Layout) -> list[Flowable]:
     out.append(lay.rich("<b>Cautions.</b> " + " ".join(lay.text(c) for c in CAUTIONS), "caution"))
     out.append(Spacer(1, 4))
     out.append(lay.rich(f"SHA-256 of input: {p.sha256}", "mono"))
-    out.append(lay.paragraph(f"Input file: {Path(p.path).name} ({len(p.source)} bytes), embedded in "
-                             "this PDF with the results as file attachments.", "small"))  # fmt: skip
+    out.append(
+        lay.paragraph(
+            f"Input file: {Path(p.path).name} ({len(p.source)} bytes), embedded in "
+            "this PDF with the results as file attachments.",
+            "small",
+        )
+    )
     return out
 
 
@@ -205,16 +220,31 @@ def results_table(lay: Layout) -> Flowable:
         if c.worst is not None:
             w = c.worst
             where = lay.plan["checks"].number if lay.has("checks") else ""
-            rows.append(("Worst utilisation", f"{percent(w.utilization)}: {check_label(w.check)}, "
-                         f"{place(w)}" + (f" (section {where})" if where else "")))  # fmt: skip
-    rows.append(("Open findings", f"{len(s.findings)}: " + "; ".join(s.findings[:4])
-                 + (" …" if len(s.findings) > 4 else "") if s.findings else "none"))  # fmt: skip
+            rows.append(
+                (
+                    "Worst utilisation",
+                    f"{percent(w.utilization)}: {check_label(w.check)}, "
+                    f"{place(w)}" + (f" (section {where})" if where else ""),
+                )
+            )
+    rows.append(
+        (
+            "Open findings",
+            f"{len(s.findings)}: "
+            + "; ".join(s.findings[:4])
+            + (" …" if len(s.findings) > 4 else "")
+            if s.findings
+            else "none",
+        )
+    )
     rows.append(("Consistency", consistency(lay)))
     verdict = (
-        f"All {counted(c.count, 'check')} pass" if c.count and not c.failed
-        else f"{len(c.failed)} of {counted(c.count, 'check')} fail: not fit for approval" if c.failed
+        f"All {counted(c.count, 'check')} pass"
+        if c.count and not c.failed
+        else f"{len(c.failed)} of {counted(c.count, 'check')} fail: not fit for approval"
+        if c.failed
         else "No design checks: the record shows derived values and their consistency only"
-    )  # fmt: skip
+    )
     rows.append(("Verdict", verdict))
     if c.failed:
         fails.append(len(rows) - 1)
@@ -226,8 +256,10 @@ def consistency(lay: Layout) -> str:
     r = lay.results
     ref = f" ({lay.ref('verification')})" if lay.has("verification") else ""
     if all(x.exact for x in lay.summary.resolutions):
-        return ("KCL, KVL and the power balance hold exactly: every case was solved in exact "
-                f"rational arithmetic{ref}")  # fmt: skip
+        return (
+            "KCL, KVL and the power balance hold exactly: every case was solved in exact "
+            f"rational arithmetic{ref}"
+        )
     worst_kcl = worst_kvl = 0.0
     res_i = res_v = 0.0
     for case, res in zip(r.cases, lay.summary.resolutions, strict=True):
@@ -235,5 +267,7 @@ def consistency(lay: Layout) -> str:
         worst_kcl = max(worst_kcl, res.clip(kcl, "A"))
         worst_kvl = max(worst_kvl, res.clip(case.kvl.max_abs_sum, "V"))
         res_i, res_v = max(res_i, res.current), max(res_v, res.voltage)
-    return (f"largest KCL sum {lay.num(worst_kcl, 'A')} (resolution {lay.num(res_i, 'A', 1)}), "
-            f"largest KVL sum {lay.num(worst_kvl, 'V')} (resolution {lay.num(res_v, 'V', 1)}){ref}")  # fmt: skip
+    return (
+        f"largest KCL sum {lay.num(worst_kcl, 'A')} (resolution {lay.num(res_i, 'A', 1)}), "
+        f"largest KVL sum {lay.num(worst_kvl, 'V')} (resolution {lay.num(res_v, 'V', 1)}){ref}"
+    )

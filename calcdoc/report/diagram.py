@@ -64,8 +64,9 @@ def legend(parts: Sequence[DiagramPart], turned: bool = False) -> list[str]:
             "Vertical line: a node, named at its top end; the ground symbol marks the reference "
             "node (the drawing is turned a quarter turn)."
         )
-    drawn = dict.fromkeys(p.drawing or (KINDS[p.kind].drawing if p.kind in KINDS else "box")
-                          for p in parts)  # fmt: skip
+    drawn = dict.fromkeys(
+        p.drawing or (KINDS[p.kind].drawing if p.kind in KINDS else "box") for p in parts
+    )
     symbols = list(dict.fromkeys(WORDS.get(d, WORDS["box"]) for d in drawn))
     return [*general[:2], *symbols, *general[2:]]
 
@@ -174,15 +175,36 @@ def _dashed(g: Group, pts: list[tuple[float, float]], cuts: list[tuple[float, fl
             y = lo
             for s in stops:
                 if s - GAP > y:
-                    g.add(Line(x0, y, x0, s - GAP, strokeColor=colors.black, strokeWidth=0.7,
-                               strokeDashArray=DASH))  # fmt: skip
+                    g.add(
+                        Line(
+                            x0,
+                            y,
+                            x0,
+                            s - GAP,
+                            strokeColor=colors.black,
+                            strokeWidth=0.7,
+                            strokeDashArray=DASH,
+                        )
+                    )
                 y = s + GAP
             if hi > y:
-                g.add(Line(x0, y, x0, hi, strokeColor=colors.black, strokeWidth=0.7,
-                           strokeDashArray=DASH))  # fmt: skip
+                g.add(
+                    Line(
+                        x0,
+                        y,
+                        x0,
+                        hi,
+                        strokeColor=colors.black,
+                        strokeWidth=0.7,
+                        strokeDashArray=DASH,
+                    )
+                )
         else:
-            g.add(Line(x0, y0, x1, y1, strokeColor=colors.black, strokeWidth=0.7,
-                       strokeDashArray=DASH))  # fmt: skip
+            g.add(
+                Line(
+                    x0, y0, x1, y1, strokeColor=colors.black, strokeWidth=0.7, strokeDashArray=DASH
+                )
+            )
 
 
 def circuit_drawing(
@@ -264,8 +286,11 @@ def circuit_drawing(
     def crossings(
         x: float, lo: float, hi: float, joined: Sequence[str]
     ) -> list[tuple[float, float]]:
-        return [(x, y_of[n]) for n in rails if n not in joined and lo < y_of[n] < hi
-                and n in spans and x <= max(spans[n])]  # fmt: skip
+        return [
+            (x, y_of[n])
+            for n in rails
+            if n not in joined and lo < y_of[n] < hi and n in spans and x <= max(spans[n])
+        ]
 
     sym_y: dict[str, float] = {}
     for x, c in zip(x_of, cols, strict=True):
@@ -275,8 +300,17 @@ def circuit_drawing(
         ya, yb = y_of[p.nodes[0]], y_of[p.nodes[1]]
         top, bot = max(ya, yb), min(ya, yb)
         for _, yn in crossings(x, bot, top, p.nodes):  # the rail is broken where the rung passes
-            g.add(Rect(x - GAP, yn - 1.5, 2 * GAP, 3, fillColor=colors.white, strokeColor=None,
-                       strokeWidth=0))  # fmt: skip
+            g.add(
+                Rect(
+                    x - GAP,
+                    yn - 1.5,
+                    2 * GAP,
+                    3,
+                    fillColor=colors.white,
+                    strokeColor=None,
+                    strokeWidth=0,
+                )
+            )
         below = max((y_of[n] for n in rails if bot <= y_of[n] < top), default=bot)
         mid = (top + below) / 2
         sym_y[p.name] = mid
@@ -284,8 +318,9 @@ def circuit_drawing(
         g.add(Line(x, mid - 11, x, bot, strokeColor=ink, strokeWidth=1))
         g.add(_symbol(p, x, mid, ya > yb, font_name))
         for k, text in enumerate(c.lines):
-            s = String(0, 0, text, fontName=font_name, fontSize=FONT, fillColor=ink,
-                       textAnchor="middle")  # fmt: skip
+            s = String(
+                0, 0, text, fontName=font_name, fontSize=FONT, fillColor=ink, textAnchor="middle"
+            )
             lab = Group(s)
             lab.translate(x + LABEL_DX + k * LINE_PITCH, mid)
             lab.rotate(90)
@@ -306,8 +341,17 @@ def circuit_drawing(
                         x, y_of[n], 1.8, fillColor=colors.white, strokeColor=ink, strokeWidth=0.8
                     )
                 )
-                g.add(String(x - 8, y_of[n] + 2.5, mark, fontName=font_name, fontSize=FONT,
-                             fillColor=ink, textAnchor="middle"))  # fmt: skip
+                g.add(
+                    String(
+                        x - 8,
+                        y_of[n] + 2.5,
+                        mark,
+                        fontName=font_name,
+                        fontSize=FONT,
+                        fillColor=ink,
+                        textAnchor="middle",
+                    )
+                )
         elif c.part is not None and c.part.control_element in x_part:
             src, ctl = c.part, c.part.control_element
             xc, xs_ = x_part[ctl], x
@@ -323,8 +367,11 @@ def circuit_drawing(
     yr, xr = y_of[reference], label_w + 4
     g.add(Line(xr, yr, xr, yr - 9, strokeColor=ink, strokeWidth=1))
     for k, half in enumerate((7, 4.5, 2)):
-        g.add(Line(xr - half, yr - 9 - 3 * k, xr + half, yr - 9 - 3 * k, strokeColor=ink,
-                   strokeWidth=1))  # fmt: skip
+        g.add(
+            Line(
+                xr - half, yr - 9 - 3 * k, xr + half, yr - 9 - 3 * k, strokeColor=ink, strokeWidth=1
+            )
+        )
     return Drawing(full_w, full_h, g)
 
 

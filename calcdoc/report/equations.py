@@ -128,8 +128,12 @@ def _side(terms, values, units, sig) -> list[str]:
     return pieces
 
 
-def equation_pieces(eq, values: Mapping[str, float] | None = None,
-                    units: Mapping[str, str] | None = None, sig: int = 4) -> list[str]:  # fmt: skip
+def equation_pieces(
+    eq,
+    values: Mapping[str, float] | None = None,
+    units: Mapping[str, str] | None = None,
+    sig: int = 4,
+) -> list[str]:
     """Breakable mathtext pieces of ``lhs = rhs``.
 
     Parameters

@@ -34,8 +34,16 @@ class Grid(Table):
     """A table whose header repeats on each sheet, that leaves no single row
     alone at the foot or head of a sheet, and that can mark changed rows."""
 
-    def __init__(self, data, *, marks: Sequence[bool] = (), mark_text: str = "",
-                 mark_colour: str = "#c62828", mark_font: str = "", **kw) -> None:  # fmt: skip
+    def __init__(
+        self,
+        data,
+        *,
+        marks: Sequence[bool] = (),
+        mark_text: str = "",
+        mark_colour: str = "#c62828",
+        mark_font: str = "",
+        **kw,
+    ) -> None:
         super().__init__(data, **kw)
         self._marks = tuple(marks)
         self._mark_text = mark_text
@@ -118,8 +126,10 @@ class KeepWithFirst(KeepTogether):
 
     def wrap(self, aW, aH):  # noqa: N803 - reportlab API
         w, h = super().wrap(aW, aH)
-        head = sum(f.wrapOn(self.canv, aW, 1e6)[1] + f.getSpaceBefore() + f.getSpaceAfter()
-                   for f in self._content[:-1])  # fmt: skip
+        head = sum(
+            f.wrapOn(self.canv, aW, 1e6)[1] + f.getSpaceBefore() + f.getSpaceAfter()
+            for f in self._content[:-1]
+        )
         self._need = head + _min_height(self._content[-1], aW, self.canv)
         return w, h
 

@@ -50,6 +50,12 @@ def register_fonts() -> FontSet:
 
     shapes.STATE_DEFAULTS["fontName"] = "CalcdocSans"
     return FontSet(
-        "CalcdocSans", "CalcdocSans-Bold", "CalcdocSans-Italic", "CalcdocMono",
-        files["CalcdocSans"], files["CalcdocSans-Bold"], files["CalcdocSans-Italic"], files["CalcdocMono"],
-    )  # fmt: skip
+        "CalcdocSans",
+        "CalcdocSans-Bold",
+        "CalcdocSans-Italic",
+        "CalcdocMono",
+        files["CalcdocSans"],
+        files["CalcdocSans-Bold"],
+        files["CalcdocSans-Italic"],
+        files["CalcdocMono"],
+    )

@@ -84,10 +84,13 @@ def method_section(lay: Layout) -> list[Flowable]:
     exact, dense = solver_limits(lay.results)
     out += [sub("Method"), lay.paragraph(METHOD.format(exact=exact, dense=dense))]
     out += [lay.paragraph(t) for t in parts.method_notes(lay.results)]
-    out.append(lay.paragraph(
-        f"Software: the calculation and this record were produced by calcdoc {__version__}; "
-        f"{lay.ref('appendix_software') if lay.has('appendix_software') else 'the software record'} "
-        "lists it with the versions of the libraries it used."))  # fmt: skip
+    out.append(
+        lay.paragraph(
+            f"Software: the calculation and this record were produced by calcdoc {__version__}; "
+            f"{lay.ref('appendix_software') if lay.has('appendix_software') else 'the software record'} "
+            "lists it with the versions of the libraries it used."
+        )
+    )
     out += [
         lay.paragraph(CONVENTIONS),
         lay.paragraph(TYPESETTING),
@@ -156,9 +159,13 @@ def inputs_section(lay: Layout) -> list[Flowable]:
     out: list[Flowable] = [lay.section("inputs")]
     sub = lay.subsections("inputs")
     out.append(sub("Elements"))
-    out.append(lay.paragraph(
-        "Each element with its value, tolerance and rating, and where the value and rating come "
-        "from (the project file's source and basis entries).", "small"))  # fmt: skip
+    out.append(
+        lay.paragraph(
+            "Each element with its value, tolerance and rating, and where the value and rating come "
+            "from (the project file's source and basis entries).",
+            "small",
+        )
+    )
     rows = []
     for e in p.elements:
         kind = e.kind.words
@@ -171,18 +178,44 @@ def inputs_section(lay: Layout) -> list[Flowable]:
         val = parts.value_text(e, lay.sig, value_text(e.kind.main.unit, float(e.value), lay.sig))
         if not isinstance(e.value_expr, Literal):
             val += f"\n= {e.value_text}"
-        rows.append((e.name, kind, f"{e.nodes[0]} → {e.nodes[1]}", val, tolerance_text(e),
-                     rating_text(e), source_text(e)))  # fmt: skip
-    out.append(lay.table(
-        ["Element", "Type and description", "Nodes a → b", "Value", "Tolerance", "Rating",
-         "Source of value and rating"], rows, [0.75, 2.1, 1.0, 1.2, 0.95, 1.0, 1.9],
-        marks=lay.marks([f"elements.{e.name}" for e in p.elements])))  # fmt: skip
+        rows.append(
+            (
+                e.name,
+                kind,
+                f"{e.nodes[0]} → {e.nodes[1]}",
+                val,
+                tolerance_text(e),
+                rating_text(e),
+                source_text(e),
+            )
+        )
+    out.append(
+        lay.table(
+            [
+                "Element",
+                "Type and description",
+                "Nodes a → b",
+                "Value",
+                "Tolerance",
+                "Rating",
+                "Source of value and rating",
+            ],
+            rows,
+            [0.75, 2.1, 1.0, 1.2, 0.95, 1.0, 1.9],
+            marks=lay.marks([f"elements.{e.name}" for e in p.elements]),
+        )
+    )
     out.append(sub("Parameters"))
     if p.parameters:
         rows = [(q.name, q.text, parameter_text(lay, q), q.description or "") for q in p.parameters]
-        out.append(lay.table(["Parameter", "Given as", "Value", "Description"], rows,
-                             [1.2, 2, 1.3, 3],
-                             marks=lay.marks([f"parameters.{q.name}" for q in p.parameters])))  # fmt: skip
+        out.append(
+            lay.table(
+                ["Parameter", "Given as", "Value", "Description"],
+                rows,
+                [1.2, 2, 1.3, 3],
+                marks=lay.marks([f"parameters.{q.name}" for q in p.parameters]),
+            )
+        )
     else:
         out.append(lay.paragraph("None stated."))
     lim = p.limits
@@ -195,13 +228,24 @@ def inputs_section(lay: Layout) -> list[Flowable]:
     if lim.ambient is not None:
         rows.append(("Ambient temperature for derating", f"{number(float(lim.ambient))} °C"))
     if lim.derating is not None:
-        rows.append(("Derating curve", f"full rating to {number(float(lim.derating.knee))} °C, "
-                     f"zero at {number(float(lim.derating.zero))} °C"))  # fmt: skip
+        rows.append(
+            (
+                "Derating curve",
+                f"full rating to {number(float(lim.derating.knee))} °C, "
+                f"zero at {number(float(lim.derating.zero))} °C",
+            )
+        )
     rated = [e.name for e in p.elements if e.rating.given()]
     rows.append(("Element ratings", f"stated for {', '.join(rated)}" if rated else "none stated"))
     for w in lim.nodes:
-        rng = " and ".join(x for x in (w.min is not None and f"≥ {eng(float(w.min), 'V', lay.sig)}",
-                                       w.max is not None and f"≤ {eng(float(w.max), 'V', lay.sig)}") if x)  # fmt: skip
+        rng = " and ".join(
+            x
+            for x in (
+                w.min is not None and f"≥ {eng(float(w.min), 'V', lay.sig)}",
+                w.max is not None and f"≤ {eng(float(w.max), 'V', lay.sig)}",
+            )
+            if x
+        )
         rows.append((f"Node {w.node} window", rng))
     if not lim.nodes:
         rows.append(("Node voltage windows", "none stated"))
@@ -210,15 +254,25 @@ def inputs_section(lay: Layout) -> list[Flowable]:
     out.append(sub("Operating cases"))
     if p.cases:
         rows = [("Nominal", f"values as in {lay.ref('inputs')}", "")]
-        rows += [(case_label(c.name), ", ".join(f"{s.target} = {s.text}" for s in c.settings) or "none",
-                  c.description or "") for c in p.cases]  # fmt: skip
+        rows += [
+            (
+                case_label(c.name),
+                ", ".join(f"{s.target} = {s.text}" for s in c.settings) or "none",
+                c.description or "",
+            )
+            for c in p.cases
+        ]
         out.append(lay.table(["Case", "Changes from nominal", "Description"], rows, [1.3, 3, 3]))
     else:
         out.append(lay.paragraph("None stated: only the nominal case is solved."))
     a = p.analysis
     out.append(sub("Analysis settings"))
-    methods = {"none": "none asked for", "extreme": "extreme values (vertices of the tolerance box)",
-               "montecarlo": "Monte Carlo (random value sets)", "rss": "root-sum-square"}  # fmt: skip
+    methods = {
+        "none": "none asked for",
+        "extreme": "extreme values (vertices of the tolerance box)",
+        "montecarlo": "Monte Carlo (random value sets)",
+        "rss": "root-sum-square",
+    }
     rows = [("Tolerance analysis", methods.get(a.tolerance, a.tolerance))]
     if a.tolerance == "montecarlo":
         rows += [

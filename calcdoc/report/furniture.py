@@ -96,7 +96,9 @@ def furniture(project, style, fonts, status, page_size) -> Callable[[Canvas, int
     acc = colors.HexColor(style.colours["accent"])
     mark = colors.HexColor(style.colours["mark"])
     date = d.date.isoformat() if d.date else "undated"
-    ident = "   ".join(x for x in (d.number and f"Doc. {d.number}", d.revision and f"Rev. {d.revision}") if x)  # fmt: skip
+    ident = "   ".join(
+        x for x in (d.number and f"Doc. {d.number}", d.revision and f"Rev. {d.revision}") if x
+    )
     ident = printable(ident, f.regular)
     ident_w = stringWidth(ident, f.regular, 7.5)
     title, title_size = fit_title(

@@ -70,7 +70,7 @@ def paragraph_styles(fonts, style) -> dict[str, ParagraphStyle]:
         ),
         "mono": derived(
             "mono", fontName=fonts.mono, fontSize=fs * 0.78, leading=fs * 0.98, spaceAfter=0
-        ),  # fmt: skip
+        ),
         "h1": derived(
             "h1",
             fontName=fonts.bold,
@@ -79,7 +79,7 @@ def paragraph_styles(fonts, style) -> dict[str, ParagraphStyle]:
             textColor=acc,
             spaceBefore=fs * 0.6,
             spaceAfter=fs * 0.6,
-        ),  # fmt: skip
+        ),
         "h2": derived(
             "h2",
             fontName=fonts.bold,
@@ -88,13 +88,13 @@ def paragraph_styles(fonts, style) -> dict[str, ParagraphStyle]:
             textColor=acc,
             spaceBefore=fs * 0.8,
             spaceAfter=fs * 0.3,
-        ),  # fmt: skip
+        ),
         "h3": derived(
             "h3", fontName=fonts.bold, fontSize=fs, leading=fs * 1.3, spaceBefore=fs * 0.5
-        ),  # fmt: skip
+        ),
         "title": derived(
             "title", fontName=fonts.bold, fontSize=fs * 2.3, leading=fs * 2.8, textColor=acc
-        ),  # fmt: skip
+        ),
         "status": derived("status", fontName=fonts.bold, fontSize=fs * 1.2, leading=fs * 1.5),
         "caution": derived("caution", fontSize=fs * 0.95, leading=fs * 1.25, leftIndent=6),
         "toc1": derived("toc1", fontSize=fs * 1.05, leading=fs * 1.45, spaceAfter=0),
@@ -185,10 +185,17 @@ class Layout:
         return f"<font color='{self.colour('fail')}'><b>{markup}</b></font>"
 
     # ------------------------------------------------------------ tables
-    def table(self, header: Sequence[str], rows: Sequence[Sequence[Any]],
-              widths: Sequence[float] | None = None, *, fail_rows: Sequence[int] = (),
-              marks: Sequence[bool] = (), bold_rows: Sequence[int] = (),
-              right: Sequence[int] = ()) -> Grid:  # fmt: skip
+    def table(
+        self,
+        header: Sequence[str],
+        rows: Sequence[Sequence[Any]],
+        widths: Sequence[float] | None = None,
+        *,
+        fail_rows: Sequence[int] = (),
+        marks: Sequence[bool] = (),
+        bold_rows: Sequence[int] = (),
+        right: Sequence[int] = (),
+    ) -> Grid:
         """A table; ``widths`` are relative, ``right`` the columns set flush right."""
         cell = self.styles["cell"]
         if widths is not None:
@@ -209,12 +216,24 @@ class Layout:
             return Paragraph(keep_units(escape(text)).replace("\n", "<br/>"), style)
 
         head_right = self.styles["cell_right"]
-        data = [[Paragraph(f"<b>{self.text(h)}</b>", head_right if k in right else cell)
-                 for k, h in enumerate(header)]]  # fmt: skip
+        data = [
+            [
+                Paragraph(f"<b>{self.text(h)}</b>", head_right if k in right else cell)
+                for k, h in enumerate(header)
+            ]
+        ]
         data += [[wrap(v, k) for k, v in enumerate(row)] for row in rows]
         rev = self.results.project.document.revision
-        t = Grid(data, colWidths=widths, repeatRows=1, hAlign="LEFT", marks=marks,
-                 mark_text=rev, mark_colour=self.colour("mark"), mark_font=self.fonts.bold)  # fmt: skip
+        t = Grid(
+            data,
+            colWidths=widths,
+            repeatRows=1,
+            hAlign="LEFT",
+            marks=marks,
+            mark_text=rev,
+            mark_colour=self.colour("mark"),
+            mark_font=self.fonts.bold,
+        )
         cmds = [
             ("FONT", (0, 0), (-1, -1), font, size),
             ("BACKGROUND", (0, 0), (-1, 0), colors.HexColor(self.colour("shade"))),
@@ -234,9 +253,16 @@ class Layout:
         t.setStyle(TableStyle(cmds))
         return t
 
-    def columns(self, header: Sequence[str], rows: Sequence[Sequence[Any]],
-                widths: Sequence[float], *, group: float = 120.0, block: int = 45,
-                right: Sequence[int] = ()) -> list[Flowable]:  # fmt: skip
+    def columns(
+        self,
+        header: Sequence[str],
+        rows: Sequence[Sequence[Any]],
+        widths: Sequence[float],
+        *,
+        group: float = 120.0,
+        block: int = 45,
+        right: Sequence[int] = (),
+    ) -> list[Flowable]:
         """A long list of short rows set as side-by-side groups of ``header``.
 
         As many groups of at least ``group`` points as fit the text width (up

@@ -87,8 +87,12 @@ class PackageOutput:
 def _matrix_appendix(results, style) -> bool:
     sol = results.cases[0].solution
     n = len(sol.unknowns)
-    return (sol.formulation is not None and sol.matrix is not None and "matrix" in style.sections
-            and MATRIX_INLINE_LIMIT < n <= MATRIX_LISTING_LIMIT)  # fmt: skip
+    return (
+        sol.formulation is not None
+        and sol.matrix is not None
+        and "matrix" in style.sections
+        and MATRIX_INLINE_LIMIT < n <= MATRIX_LISTING_LIMIT
+    )
 
 
 def plan(results, style, previous) -> list[tuple[str, str]]:
@@ -99,8 +103,12 @@ def plan(results, style, previous) -> list[tuple[str, str]]:
     out += [("method", "Purpose, scope and method"), ("inputs", "Design inputs")]
     if "diagram" in style.sections:
         out.append(("diagram", "Circuit diagram"))
-    out += [("formulation", "Formulation (nominal case)"), ("solution", "Solution"),
-            ("verification", "Verification"), ("checks", "Design checks")]  # fmt: skip
+    out += [
+        ("formulation", "Formulation (nominal case)"),
+        ("solution", "Solution"),
+        ("verification", "Verification"),
+        ("checks", "Design checks"),
+    ]
     if stage(results, "tolerance") is not None or stage(results, "envelope") is not None:
         out.append(("tolerance", "Tolerance and operating cases"))
     if stage(results, "sensitivity") is not None:
@@ -148,18 +156,33 @@ def build_package(
     size = A4 if (p.report.paper or style.paper) == "A4" else LETTER
     fonts = register_fonts()
     top, bottom, left, right = (m * mm for m in style.margin_mm)
-    lay = Layout(results, style, fonts, size[0] - left - right, p.report.significant_figures,
-                 previous, size[1] - top - bottom)  # fmt: skip
+    lay = Layout(
+        results,
+        style,
+        fonts,
+        size[0] - left - right,
+        p.report.significant_figures,
+        previous,
+        size[1] - top - bottom,
+    )
     lay.summary = record_summary(results)
     sections = plan(results, style, previous)
     lay.set_plan(sections)
     say("laying out the cover")
     story: list[Flowable] = [NextPageTemplate("body"), *cover(lay), PageBreak()]
-    toc_style = TableStyle([("FONT", (0, 0), (-1, -1), fonts.regular, 9), ("VALIGN", (0, 0), (-1, -1), "TOP"),
-                            ("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0),
-                            ("TOPPADDING", (0, 0), (-1, -1), 0), ("BOTTOMPADDING", (0, 0), (-1, -1), 0)])  # fmt: skip
-    toc = TableOfContents(levelStyles=[lay.styles["toc1"], lay.styles["toc2"]], dotsMinLevel=0,
-                          tableStyle=toc_style)  # fmt: skip
+    toc_style = TableStyle(
+        [
+            ("FONT", (0, 0), (-1, -1), fonts.regular, 9),
+            ("VALIGN", (0, 0), (-1, -1), "TOP"),
+            ("LEFTPADDING", (0, 0), (-1, -1), 0),
+            ("RIGHTPADDING", (0, 0), (-1, -1), 0),
+            ("TOPPADDING", (0, 0), (-1, -1), 0),
+            ("BOTTOMPADDING", (0, 0), (-1, -1), 0),
+        ]
+    )
+    toc = TableOfContents(
+        levelStyles=[lay.styles["toc1"], lay.styles["toc2"]], dotsMinLevel=0, tableStyle=toc_style
+    )
     story += [lay.rich("<b>Contents</b>", "h1"), toc, CondPageBreak(250)]
     matrix: list[Flowable] = []
 
@@ -170,14 +193,22 @@ def build_package(
 
     builders = {
         "changes": lambda lay: changes_section(lay, previous),
-        "method": method_section, "inputs": inputs_section, "diagram": diagram_section,
-        "formulation": formulation, "solution": solution_section,
-        "verification": verification_section, "checks": checks_section,
-        "tolerance": tolerance_section, "sensitivity": sensitivity_section,
-        "sweeps": sweeps_section, "preferred": preferred_section,
-        "conclusion": conclusion_section, "appendix_input": input_appendix,
-        "appendix_software": software_appendix, "appendix_matrix": lambda lay: matrix,
-    }  # fmt: skip
+        "method": method_section,
+        "inputs": inputs_section,
+        "diagram": diagram_section,
+        "formulation": formulation,
+        "solution": solution_section,
+        "verification": verification_section,
+        "checks": checks_section,
+        "tolerance": tolerance_section,
+        "sensitivity": sensitivity_section,
+        "sweeps": sweeps_section,
+        "preferred": preferred_section,
+        "conclusion": conclusion_section,
+        "appendix_input": input_appendix,
+        "appendix_software": software_appendix,
+        "appendix_matrix": lambda lay: matrix,
+    }
     for key, _ in sections:
         say(f"laying out {key.replace('_', ' ')}")
         body = builders[key](lay)
@@ -189,14 +220,33 @@ def build_package(
     say("typesetting")
     buf = io.BytesIO()
     d = p.document
-    doc = RecordingDoc(buf, records=lay.records, pagesize=size, leftMargin=left, rightMargin=right,
-                       topMargin=top, bottomMargin=bottom, title=d.title,
-                       author=(p.signoff.prepared.name if p.signoff.prepared else d.organisation),
-                       subject=f"Calculation record {d.number} revision {d.revision}".strip(),
-                       creator=f"calcdoc {__version__}", invariant=1,
-                       initialFontName=fonts.regular, pageCompression=1)  # fmt: skip
-    frame = Frame(left, bottom, lay.width, size[1] - top - bottom, id="body", leftPadding=0,
-                  rightPadding=0, topPadding=0, bottomPadding=0)  # fmt: skip
+    doc = RecordingDoc(
+        buf,
+        records=lay.records,
+        pagesize=size,
+        leftMargin=left,
+        rightMargin=right,
+        topMargin=top,
+        bottomMargin=bottom,
+        title=d.title,
+        author=(p.signoff.prepared.name if p.signoff.prepared else d.organisation),
+        subject=f"Calculation record {d.number} revision {d.revision}".strip(),
+        creator=f"calcdoc {__version__}",
+        invariant=1,
+        initialFontName=fonts.regular,
+        pageCompression=1,
+    )
+    frame = Frame(
+        left,
+        bottom,
+        lay.width,
+        size[1] - top - bottom,
+        id="body",
+        leftPadding=0,
+        rightPadding=0,
+        topPadding=0,
+        bottomPadding=0,
+    )
     doc.addPageTemplates([PageTemplate("cover", [frame]), PageTemplate("body", [frame])])
     draw = furniture(p, style, fonts, lay.summary.status, size)
     canvas_cls = type("Sheets", (SheetCanvas,), {"furniture": staticmethod(draw)})
@@ -233,8 +283,11 @@ def _attach(pdf: bytes, results) -> bytes:
         json.dumps(results_document(results), indent=1, ensure_ascii=False, allow_nan=False) + "\n"
     )
     writer.add_attachment("results.json", body.encode("utf-8"))
-    meta = {k: v for k, v in dict(writer.metadata or {}).items()
-            if k not in ("/CreationDate", "/ModDate")}  # fmt: skip
+    meta = {
+        k: v
+        for k, v in dict(writer.metadata or {}).items()
+        if k not in ("/CreationDate", "/ModDate")
+    }
     meta.update({"/CalcdocInput": name, "/CalcdocInputSHA256": p.sha256})
     when = _pdf_date(p.document.date)
     if when:

@@ -110,8 +110,11 @@ def formulation_notes(case) -> list[str]:
         state = net.state(j)
         if kind.searched or kind.settable:
             law = kind.laws[state]
-            what = "no equation of its own: it adds nothing to KCL" if law.fixes_current else (
-                "its branch equation below")  # fmt: skip
+            what = (
+                "no equation of its own: it adds nothing to KCL"
+                if law.fixes_current
+                else ("its branch equation below")
+            )
             out.append(f"{name} ({kind.words}), {state}: {law.text} ({what}).")
         elif kind.control == "nodes" and not kind.has_value and j in net.control_nodes:
             plus, minus = (net.nodes[k] for k in net.control_nodes[j])
@@ -136,31 +139,51 @@ def case_blocks(case, project, sig: int) -> list[Block]:
     s = case.states
     if s is not None:
         out.append(Text("Device states", "lead"))
-        out.append(Text(
-            f"Found by {s.method} in {s.iterations} pivot{'s' if s.iterations != 1 else ''} over "
-            f"{s.pieces} conducting piece{'s' if s.pieces != 1 else ''}, then confirmed on the "
-            "solution: each test below must hold (margin ≥ 0)."
-            + (f" {s.note[0].upper()}{s.note[1:]}." if s.note else ""), "small"))  # fmt: skip
+        out.append(
+            Text(
+                f"Found by {s.method} in {s.iterations} pivot{'s' if s.iterations != 1 else ''} over "
+                f"{s.pieces} conducting piece{'s' if s.pieces != 1 else ''}, then confirmed on the "
+                "solution: each test below must hold (margin ≥ 0)."
+                + (f" {s.note[0].upper()}{s.note[1:]}." if s.note else ""),
+                "small",
+            )
+        )
         rows, failing, exact = [], [], []
         for d in s.devices:
             for k, t in enumerate(d.tests):
                 unit = "A" if t.quantity == "current" else "V"
-                rows.append((
-                    d.element if k == 0 else "", d.state if k == 0 else "",
-                    d.law if k == 0 else "", t.text, eng(t.value, unit, sig),
-                    eng(t.limit, unit, sig), eng(t.margin, unit, sig),
-                    "holds" if t.holds else "FAILS",
-                ))  # fmt: skip
+                rows.append(
+                    (
+                        d.element if k == 0 else "",
+                        d.state if k == 0 else "",
+                        d.law if k == 0 else "",
+                        t.text,
+                        eng(t.value, unit, sig),
+                        eng(t.limit, unit, sig),
+                        eng(t.margin, unit, sig),
+                        "holds" if t.holds else "FAILS",
+                    )
+                )
                 if not t.holds:
                     failing.append(len(rows) - 1)
                 if t.margin == 0:
                     exact.append(d.element)
-        out.append(Grid(("Device", "State", "Model", "Test", "Value", "Threshold", "Margin", ""),
-                        tuple(rows), (0.9, 0.9, 1.3, 0.8, 1, 1, 1, 0.6), tuple(failing)))  # fmt: skip
+        out.append(
+            Grid(
+                ("Device", "State", "Model", "Test", "Value", "Threshold", "Margin", ""),
+                tuple(rows),
+                (0.9, 0.9, 1.3, 0.8, 1, 1, 1, 0.6),
+                tuple(failing),
+            )
+        )
         if exact:
-            out.append(Text(
-                f"{', '.join(sorted(set(exact)))}: exactly at a threshold (margin 0), where "
-                "either neighbouring state gives the same solution.", "small"))  # fmt: skip
+            out.append(
+                Text(
+                    f"{', '.join(sorted(set(exact)))}: exactly at a threshold (margin 0), where "
+                    "either neighbouring state gives the same solution.",
+                    "small",
+                )
+            )
     index = {n: i for i, n in enumerate(net.nodes)}
     amps, contacts, stores = [], [], []
     for j, e in enumerate(project.elements):
@@ -168,27 +191,56 @@ def case_blocks(case, project, sig: int) -> list[Block]:
         if kind.control == "nodes" and not kind.has_value and e.control_nodes:
             vp = float(br.node_voltage[index[e.control_nodes[0]]])
             vm = float(br.node_voltage[index[e.control_nodes[1]]])
-            amps.append((e.name, f"{e.control_nodes[0]}: {eng(vp, 'V', sig)}",
-                         f"{e.control_nodes[1]}: {eng(vm, 'V', sig)}", eng(vp - vm, "V", sig),
-                         eng(float(br.voltage[j]), "V", sig),
-                         eng(float(br.current[j]), "A", sig)))  # fmt: skip
+            amps.append(
+                (
+                    e.name,
+                    f"{e.control_nodes[0]}: {eng(vp, 'V', sig)}",
+                    f"{e.control_nodes[1]}: {eng(vm, 'V', sig)}",
+                    eng(vp - vm, "V", sig),
+                    eng(float(br.voltage[j]), "V", sig),
+                    eng(float(br.current[j]), "A", sig),
+                )
+            )
         elif kind.settable:
-            contacts.append((e.name, net.state(j), eng(float(br.voltage[j]), "V", sig),
-                             eng(float(br.current[j]), "A", sig)))  # fmt: skip
+            contacts.append(
+                (
+                    e.name,
+                    net.state(j),
+                    eng(float(br.voltage[j]), "V", sig),
+                    eng(float(br.current[j]), "A", sig),
+                )
+            )
         if kind.energy is not None and br.energy is not None:
-            stores.append((e.name, kind.words, eng(float(br.voltage[j]), "V", sig),
-                           eng(float(br.current[j]), "A", sig), eng(float(br.energy[j]), "J", sig)))  # fmt: skip
+            stores.append(
+                (
+                    e.name,
+                    kind.words,
+                    eng(float(br.voltage[j]), "V", sig),
+                    eng(float(br.current[j]), "A", sig),
+                    eng(float(br.energy[j]), "J", sig),
+                )
+            )
     if amps:
         out.append(Text("Op-amps: virtual short and output", "lead"))
-        out.append(Grid(("Op-amp", "V(+)", "V(−)", "V(+) − V(−)", "Output voltage", "Output current"),
-                        tuple(amps), (0.9, 1.3, 1.3, 1, 1.1, 1.1)))  # fmt: skip
+        out.append(
+            Grid(
+                ("Op-amp", "V(+)", "V(−)", "V(+) − V(−)", "Output voltage", "Output current"),
+                tuple(amps),
+                (0.9, 1.3, 1.3, 1, 1.1, 1.1),
+            )
+        )
     if contacts:
         out.append(Text("Contacts", "lead"))
         out.append(Grid(("Contact", "State", "Voltage", "Current"), tuple(contacts), (1, 1, 1, 1)))
     if stores:
         out.append(Text("Stored energy at DC", "lead"))
-        out.append(Grid(("Element", "Type", "Voltage", "Current", "Energy"), tuple(stores),
-                        (1, 1.2, 1, 1, 1)))  # fmt: skip
+        out.append(
+            Grid(
+                ("Element", "Type", "Voltage", "Current", "Energy"),
+                tuple(stores),
+                (1, 1.2, 1, 1, 1),
+            )
+        )
     return out
 
 
@@ -228,14 +280,23 @@ def across_rows(limits, sig: int) -> list[tuple[str, str]]:
     """``[[limits.across]]`` windows for the limits table."""
     out = []
     for w in limits.across:
-        ends = [f"≥ {eng(float(w.min), 'V', sig)}" if w.min is not None else "",
-                f"≤ {eng(float(w.max), 'V', sig)}" if w.max is not None else ""]  # fmt: skip
+        ends = [
+            f"≥ {eng(float(w.min), 'V', sig)}" if w.min is not None else "",
+            f"≤ {eng(float(w.max), 'V', sig)}" if w.max is not None else "",
+        ]
         what = f"V({w.nodes[0]}) − V({w.nodes[1]}) window ({w.name})"
         out.append((what, " and ".join(x for x in ends if x)))
     return out
 
 
 __all__ = [
-    "Block", "Grid", "Text", "across_rows", "case_blocks", "formulation_notes", "method_notes",
-    "rating_text", "value_text",
-]  # fmt: skip
+    "Block",
+    "Grid",
+    "Text",
+    "across_rows",
+    "case_blocks",
+    "formulation_notes",
+    "method_notes",
+    "rating_text",
+    "value_text",
+]

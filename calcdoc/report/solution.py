@@ -32,12 +32,16 @@ def solver_text(case) -> str:
     s = case.solution
     n = counted(len(s.unknowns), "unknown")
     if getattr(s, "exact", None) is not None:
-        return (f"{n} solved exactly in rational arithmetic: the equations hold with no residual "
-                "and no rounding; the values below are rounded only for print.")  # fmt: skip
-    return (f"{n} solved by {s.method} in double precision, equilibrated and refined "
-            f"({counted(s.refinement_steps, 'refinement step')}); relative residual "
-            f"{number(s.residual, 2)}, condition number {number(s.condition, 3)} after "
-            f"equilibration, estimated relative error {number(s.error_estimate, 2)}.")  # fmt: skip
+        return (
+            f"{n} solved exactly in rational arithmetic: the equations hold with no residual "
+            "and no rounding; the values below are rounded only for print."
+        )
+    return (
+        f"{n} solved by {s.method} in double precision, equilibrated and refined "
+        f"({counted(s.refinement_steps, 'refinement step')}); relative residual "
+        f"{number(s.residual, 2)}, condition number {number(s.condition, 3)} after "
+        f"equilibration, estimated relative error {number(s.error_estimate, 2)}."
+    )
 
 
 def solution_section(lay: Layout) -> list[Flowable]:
@@ -57,43 +61,87 @@ def solution_section(lay: Layout) -> list[Flowable]:
         if len(rows) > 16:
             out += lay.columns(["Node", "Voltage"], rows[:ROW_LIMIT], [1.0, 1.0], right=(1,))
         else:
-            out.append(lay.table(["Node", "Voltage from the reference"], rows, [2, 2],
-                                 marks=lay.marks([f"results.{c.name}.nodes.{n}" for n in net.nodes])))  # fmt: skip
+            out.append(
+                lay.table(
+                    ["Node", "Voltage from the reference"],
+                    rows,
+                    [2, 2],
+                    marks=lay.marks([f"results.{c.name}.nodes.{n}" for n in net.nodes]),
+                )
+            )
         out.append(Spacer(1, 4))
-        rows = [(name, f"{net.nodes[int(net.a[j])]} → {net.nodes[int(net.b[j])]}",
-                 _q(lay, res, br.voltage[j], "V"), _q(lay, res, br.current[j], "A"),
-                 _q(lay, res, br.power[j], "W"),
-                 "absorbs" if res.clip(br.power[j], "W") > 0 else
-                 ("delivers" if res.clip(br.power[j], "W") < 0 else "none"))
-                for j, name in enumerate(net.names)]  # fmt: skip
-        out.append(lay.table(["Element", "a → b", "Voltage V(a) − V(b)", "Current a → b", "Power",
-                              "Power is"], rows[:ROW_LIMIT], [1, 1.4, 1.3, 1.3, 1.3, 0.8],
-                             right=(2, 3, 4),
-                             marks=lay.marks([f"results.{c.name}.elements.{n}" for n in net.names[:ROW_LIMIT]])))  # fmt: skip
+        rows = [
+            (
+                name,
+                f"{net.nodes[int(net.a[j])]} → {net.nodes[int(net.b[j])]}",
+                _q(lay, res, br.voltage[j], "V"),
+                _q(lay, res, br.current[j], "A"),
+                _q(lay, res, br.power[j], "W"),
+                "absorbs"
+                if res.clip(br.power[j], "W") > 0
+                else ("delivers" if res.clip(br.power[j], "W") < 0 else "none"),
+            )
+            for j, name in enumerate(net.names)
+        ]
+        out.append(
+            lay.table(
+                ["Element", "a → b", "Voltage V(a) − V(b)", "Current a → b", "Power", "Power is"],
+                rows[:ROW_LIMIT],
+                [1, 1.4, 1.3, 1.3, 1.3, 0.8],
+                right=(2, 3, 4),
+                marks=lay.marks([f"results.{c.name}.elements.{n}" for n in net.names[:ROW_LIMIT]]),
+            )
+        )
         if len(rows) > ROW_LIMIT:
-            out.append(lay.paragraph(f"… {len(rows) - ROW_LIMIT} more rows in the embedded "
-                                     "results.json.", "small"))  # fmt: skip
-        dep = [(j, e.name) for j, e in enumerate(lay.results.project.elements)
-               if e.kind.control and e.kind.main.name == "gain"]  # fmt: skip
+            out.append(
+                lay.paragraph(
+                    f"… {len(rows) - ROW_LIMIT} more rows in the embedded results.json.", "small"
+                )
+            )
+        dep = [
+            (j, e.name)
+            for j, e in enumerate(lay.results.project.elements)
+            if e.kind.control and e.kind.main.name == "gain"
+        ]
         if dep:
             out.append(Spacer(1, 4))
-            out.append(lay.rich("<b>Dependent sources</b>: each source's control quantity, its "
-                                "value and the gain × control product (the source's voltage "
-                                "for a VCVS or CCVS, its current for a VCCS or CCCS).", "small"))  # fmt: skip
+            out.append(
+                lay.rich(
+                    "<b>Dependent sources</b>: each source's control quantity, its "
+                    "value and the gain × control product (the source's voltage "
+                    "for a VCVS or CCVS, its current for a VCCS or CCCS).",
+                    "small",
+                )
+            )
             rows = []
             for j, name in dep:
                 e = kinds[name]
                 unit, ctl = control_value(c, name, e.control_nodes, e.control_element)
-                what = (f"V({e.control_nodes[0]}) − V({e.control_nodes[1]})" if e.control_nodes
-                        else f"I({e.control_element})")  # fmt: skip
+                what = (
+                    f"V({e.control_nodes[0]}) − V({e.control_nodes[1]})"
+                    if e.control_nodes
+                    else f"I({e.control_element})"
+                )
                 fixes_v = br.law_fixes_voltage is None or bool(br.law_fixes_voltage[j])
                 out_unit = "V" if fixes_v else "A"
                 product = br.law_voltage[j] if out_unit == "V" else br.current[j]
-                rows.append((name, what, _q(lay, res, ctl, unit),
-                             value_text(e.kind.main.unit, float(net.values[j]), lay.sig),
-                             _q(lay, res, product, out_unit)))  # fmt: skip
-            out.append(lay.table(["Source", "Control quantity", "Control value", "Gain",
-                                  "Gain × control"], rows, [1, 1.8, 1.2, 1.2, 1.2], right=(2, 4)))  # fmt: skip
+                rows.append(
+                    (
+                        name,
+                        what,
+                        _q(lay, res, ctl, unit),
+                        value_text(e.kind.main.unit, float(net.values[j]), lay.sig),
+                        _q(lay, res, product, out_unit),
+                    )
+                )
+            out.append(
+                lay.table(
+                    ["Source", "Control quantity", "Control value", "Gain", "Gain × control"],
+                    rows,
+                    [1, 1.8, 1.2, 1.2, 1.2],
+                    right=(2, 4),
+                )
+            )
     return out
 
 
@@ -130,17 +178,24 @@ def verification_section(lay: Layout) -> list[Flowable]:
     for c, res in zip(lay.results.cases, lay.summary.resolutions, strict=True):
         net, br = c.netlist, c.branches
         out.append(sub(f"Case {case_label(c.name)}"))
-        out.append(lay.rich("<b>KCL at each node</b>: the currents leaving the node through each "
-                            "element (a current entering counts negative) sum to zero. "
-                            + lay.text(resolution_note(lay, res, "A")), "small"))  # fmt: skip
+        out.append(
+            lay.rich(
+                "<b>KCL at each node</b>: the currents leaving the node through each "
+                "element (a current entering counts negative) sum to zero. "
+                + lay.text(resolution_note(lay, res, "A")),
+                "small",
+            )
+        )
         leaving: dict[int, list[str]] = {}
         for j, name in enumerate(net.names):
             i = res.clip(float(br.current[j]), "A")
             mag = eng(abs(i), "A", lay.sig)
             leaving.setdefault(int(net.a[j]), []).append(f"{name} {'+' if i >= 0 else '−'}{mag}")
             leaving.setdefault(int(net.b[j]), []).append(f"{name} {'−' if i > 0 else '+'}{mag}")
-        rows = [(net.nodes[n], "; ".join(leaving.get(n, [])), _q(lay, res, c.kcl[n], "A"))
-                for n in range(1, len(net.nodes))]  # fmt: skip
+        rows = [
+            (net.nodes[n], "; ".join(leaving.get(n, [])), _q(lay, res, c.kcl[n], "A"))
+            for n in range(1, len(net.nodes))
+        ]
         out.append(
             lay.table(["Node", "Currents leaving", "Sum"], rows[:ROW_LIMIT], [1, 5, 1], right=(2,))
         )
@@ -148,9 +203,11 @@ def verification_section(lay: Layout) -> list[Flowable]:
         out += _kvl(lay, c, res, kinds)
         out.append(Spacer(1, 4))
         led = c.ledger
-        rows = [("Absorbed (sum of positive powers)", _q(lay, res, led.absorbed, "W")),
-                ("Delivered (sum of negative powers)", _q(lay, res, led.delivered, "W")),
-                ("Imbalance (absorbed − delivered)", _q(lay, res, led.imbalance, "W"))]  # fmt: skip
+        rows = [
+            ("Absorbed (sum of positive powers)", _q(lay, res, led.absorbed, "W")),
+            ("Delivered (sum of negative powers)", _q(lay, res, led.delivered, "W")),
+            ("Imbalance (absorbed − delivered)", _q(lay, res, led.imbalance, "W")),
+        ]
         block: list[Flowable] = [
             lay.rich(
                 "<b>Power balance</b>: the power absorbed equals the power delivered.", "small"
@@ -169,8 +226,14 @@ def _part_blocks(lay: Layout, blocks) -> list[Flowable]:
     out: list[Flowable] = []
     for b in blocks:
         if isinstance(b, parts.Grid):
-            out.append(lay.table(list(b.header), [list(r) for r in b.rows], list(b.widths),
-                                 fail_rows=list(b.failing)))  # fmt: skip
+            out.append(
+                lay.table(
+                    list(b.header),
+                    [list(r) for r in b.rows],
+                    list(b.widths),
+                    fail_rows=list(b.failing),
+                )
+            )
         elif b.style == "lead":
             out += [Spacer(1, 4), lay.rich(f"<b>{lay.text(b.text)}</b>", "small")]
         else:
@@ -179,9 +242,11 @@ def _part_blocks(lay: Layout, blocks) -> list[Flowable]:
 
 
 def _kvl(lay: Layout, c, res: Resolution, kinds) -> list[Flowable]:
-    intro = ("<b>KVL around each loop</b>: each element's own-law voltage (its source value, gain × "
-             "control, or R·i), signed + where the loop runs through it from a to b; the terms sum "
-             "to zero. ")  # fmt: skip
+    intro = (
+        "<b>KVL around each loop</b>: each element's own-law voltage (its source value, gain × "
+        "control, or R·i), signed + where the loop runs through it from a to b; the terms sum "
+        "to zero. "
+    )
     loops = c.kvl
     if not loops.count:
         return [lay.rich(intro + "The circuit has no loops (it is a tree).", "small")]
@@ -190,25 +255,52 @@ def _kvl(lay: Layout, c, res: Resolution, kinds) -> list[Flowable]:
         rows, bold = [], []
         for m, lp in enumerate(loops.loops, 1):
             for k, (e, sg, t) in enumerate(zip(lp.elements, lp.signs, lp.terms, strict=True)):
-                rows.append((f"L{m}" if k == 0 else "", e, "+" if sg > 0 else "−",
-                             _law(lay, c, res, e, kinds), _q(lay, res, t, "V")))  # fmt: skip
+                rows.append(
+                    (
+                        f"L{m}" if k == 0 else "",
+                        e,
+                        "+" if sg > 0 else "−",
+                        _law(lay, c, res, e, kinds),
+                        _q(lay, res, t, "V"),
+                    )
+                )
             rows.append(("", f"Sum around L{m}", "", "", _q(lay, res, lp.sum, "V")))
             bold.append(len(rows) - 1)
-        return [lay.rich(intro + lay.text(resolution_note(lay, res, "V")), "small"),
-                lay.table(["Loop", "Element", "Direction", "Own-law voltage", "Term"], rows,
-                          [0.5, 1.1, 0.7, 3.6, 1], bold_rows=bold, right=(4,))]  # fmt: skip
+        return [
+            lay.rich(intro + lay.text(resolution_note(lay, res, "V")), "small"),
+            lay.table(
+                ["Loop", "Element", "Direction", "Own-law voltage", "Term"],
+                rows,
+                [0.5, 1.1, 0.7, 3.6, 1],
+                bold_rows=bold,
+                right=(4,),
+            ),
+        ]
     if loops.listed:
-        rows = [(f"L{m}", lp.chord, str(len(lp.elements)), _q(lay, res, lp.sum, "V"))
-                for m, lp in enumerate(loops.loops, 1)]  # fmt: skip
+        rows = [
+            (f"L{m}", lp.chord, str(len(lp.elements)), _q(lay, res, lp.sum, "V"))
+            for m, lp in enumerate(loops.loops, 1)
+        ]
     else:
-        rows = [(f"L{m}", ch, "", _q(lay, res, s, "V"))
-                for m, (ch, s) in enumerate(zip(loops.chords, loops.sums, strict=True), 1)]  # fmt: skip
-    note = (f"The {loops.count} loops have more than {KVL_TERM_LIMIT} terms in all, so each loop is "
-            "listed by the element that closes it, with its number of terms and its sum; every "
-            "term is in the embedded results.json. ")  # fmt: skip
-    return [lay.rich(intro + lay.text(note + resolution_note(lay, res, "V")), "small"),
-            *lay.columns(["Loop", "Closed by", "Terms", "Sum"], rows[:ROW_LIMIT], [0.5, 0.8, 0.5, 0.7], group=150,
-                         right=(2, 3))]  # fmt: skip
+        rows = [
+            (f"L{m}", ch, "", _q(lay, res, s, "V"))
+            for m, (ch, s) in enumerate(zip(loops.chords, loops.sums, strict=True), 1)
+        ]
+    note = (
+        f"The {loops.count} loops have more than {KVL_TERM_LIMIT} terms in all, so each loop is "
+        "listed by the element that closes it, with its number of terms and its sum; every "
+        "term is in the embedded results.json. "
+    )
+    return [
+        lay.rich(intro + lay.text(note + resolution_note(lay, res, "V")), "small"),
+        *lay.columns(
+            ["Loop", "Closed by", "Terms", "Sum"],
+            rows[:ROW_LIMIT],
+            [0.5, 0.8, 0.5, 0.7],
+            group=150,
+            right=(2, 3),
+        ),
+    ]
 
 
 class LedgerChart(Flowable):

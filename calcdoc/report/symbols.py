@@ -123,12 +123,27 @@ def opamp(x: float, y: float, a_on_top: bool, state: str = "", font: str = "") -
     apex, base = y + 9 * s, y - 9 * s
     _line(g, x, y + REACH * s, x, apex)
     _line(g, x, y - REACH * s, x, base)
-    g.add(Polygon([x - 9, base, x + 9, base, x, apex], fillColor=colors.white, strokeColor=INK,
-                  strokeWidth=1))  # fmt: skip
+    g.add(
+        Polygon(
+            [x - 9, base, x + 9, base, x, apex],
+            fillColor=colors.white,
+            strokeColor=INK,
+            strokeWidth=1,
+        )
+    )
     baseline = base + 1.5 if s > 0 else base - 6.0  # just inside the base
     for dx, mark in ((-4.0, "+"), (4.0, "−")):
-        g.add(String(x + dx, baseline, mark, fontName=font or "Helvetica", fontSize=6,
-                     textAnchor="middle", fillColor=INK))  # fmt: skip
+        g.add(
+            String(
+                x + dx,
+                baseline,
+                mark,
+                fontName=font or "Helvetica",
+                fontSize=6,
+                textAnchor="middle",
+                fillColor=INK,
+            )
+        )
     return g
 
 
@@ -141,23 +156,44 @@ def _circle(g: Group, x: float, y: float) -> None:
 
 
 def _diamond(g: Group, x: float, y: float) -> None:
-    g.add(Polygon([x, y + 11, x + 9, y, x, y - 11, x - 9, y], fillColor=colors.white,
-                  strokeColor=INK, strokeWidth=1))  # fmt: skip
+    g.add(
+        Polygon(
+            [x, y + 11, x + 9, y, x, y - 11, x - 9, y],
+            fillColor=colors.white,
+            strokeColor=INK,
+            strokeWidth=1,
+        )
+    )
 
 
 def _polarity(g: Group, x: float, y: float, a_on_top: bool, font: str) -> None:
     sa, sb = (5.5, -5.5) if a_on_top else (-5.5, 5.5)
     for dy, mark in ((sa, "+"), (sb, "−")):
-        g.add(String(x, y + dy - 2.5, mark, fontName=font, fontSize=MARK_FONT,
-                     textAnchor="middle", fillColor=INK))  # fmt: skip
+        g.add(
+            String(
+                x,
+                y + dy - 2.5,
+                mark,
+                fontName=font,
+                fontSize=MARK_FONT,
+                textAnchor="middle",
+                fillColor=INK,
+            )
+        )
 
 
 def _arrow(g: Group, x: float, y: float, a_on_top: bool) -> None:
     """Current flows a → b: the arrow points at b."""
     d = -1 if a_on_top else 1
     _line(g, x, y - 6 * d, x, y + 5 * d)
-    g.add(Polygon([x, y + 7 * d, x - 3, y + 2.5 * d, x + 3, y + 2.5 * d], fillColor=INK,
-                  strokeColor=INK, strokeWidth=0.5))  # fmt: skip
+    g.add(
+        Polygon(
+            [x, y + 7 * d, x - 3, y + 2.5 * d, x + 3, y + 2.5 * d],
+            fillColor=INK,
+            strokeColor=INK,
+            strokeWidth=0.5,
+        )
+    )
 
 
 def resistor(x: float, y: float, a_on_top: bool, state: str = "", font: str = "") -> Group:

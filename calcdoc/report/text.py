@@ -103,8 +103,16 @@ def printable(text: str, font_name: str) -> str:
 def _fields(project) -> Iterator[tuple[str, str]]:
     """(key path, text) of every free-text field the package prints."""
     d = project.document
-    for key in ("title", "number", "revision", "project", "organisation", "purpose", "scope",
-                "conclusion"):  # fmt: skip
+    for key in (
+        "title",
+        "number",
+        "revision",
+        "project",
+        "organisation",
+        "purpose",
+        "scope",
+        "conclusion",
+    ):
         yield f"document.{key}", getattr(d, key)
     for i, a in enumerate(d.assumptions):
         yield f"document.assumptions[{i}]", a

@@ -25,8 +25,14 @@ from calcdoc.model.project import Limits, Project
 from calcdoc.results import Branches, Check, Netlist
 
 __all__ = [
-    "Check", "RATINGS", "Rating", "design_checks", "max_check", "range_check", "window_check",
-]  # fmt: skip
+    "Check",
+    "RATINGS",
+    "Rating",
+    "design_checks",
+    "max_check",
+    "range_check",
+    "window_check",
+]
 
 
 @dataclass(frozen=True)
@@ -62,7 +68,7 @@ RATINGS: dict[str, Rating] = {
             "voltage",
             lambda v: np.maximum(-v, 0.0),
             ("breakdown",),  # a zener in breakdown is meant to be there
-        ),  # fmt: skip
+        ),
     )
 }
 
@@ -99,8 +105,9 @@ def max_check(
     return Check(cid, subject, quantity, value, limit, "max", util, limit - value, basis)
 
 
-def window_check(cid: str, subject: str, quantity: str, value: float, limit: float,
-                 bound: str, basis: str) -> Check:  # fmt: skip
+def window_check(
+    cid: str, subject: str, quantity: str, value: float, limit: float, bound: str, basis: str
+) -> Check:
     """A signed value against a lower (``min``) or upper (``max``) bound."""
     if bound == "min":
         util = limit / value if limit > 0 and value > 0 else None
@@ -109,16 +116,19 @@ def window_check(cid: str, subject: str, quantity: str, value: float, limit: flo
     return Check(cid, subject, quantity, value, limit, "max", util, limit - value, basis)
 
 
-def range_check(cid: str, subject: str, quantity: str, value: float, low, high,
-                basis: str) -> Check:  # fmt: skip
+def range_check(
+    cid: str, subject: str, quantity: str, value: float, low, high, basis: str
+) -> Check:
     """A signed value against a range: the check of the nearer end (the smaller margin)."""
     ends = []
     if low is not None:
-        ends.append(window_check(cid, subject, quantity, value, float(low), "min",
-                                 f"{basis}, lower end"))  # fmt: skip
+        ends.append(
+            window_check(cid, subject, quantity, value, float(low), "min", f"{basis}, lower end")
+        )
     if high is not None:
-        ends.append(window_check(cid, subject, quantity, value, float(high), "max",
-                                 f"{basis}, upper end"))  # fmt: skip
+        ends.append(
+            window_check(cid, subject, quantity, value, float(high), "max", f"{basis}, upper end")
+        )
     return min(ends, key=lambda c: c.margin)
 
 
@@ -137,8 +147,17 @@ def element_checks(project: Project, net: Netlist, br: Branches, j: int) -> list
     for key, low, high in e.windows:
         w = windows[key]
         value = float(getattr(br, w.of)[j])
-        out.append(range_check(f"{e.name}.{key}", e.name, w.quantity, value, low, high,
-                               f"{w.words} {float(low):g} to {float(high):g} {w.unit}"))  # fmt: skip
+        out.append(
+            range_check(
+                f"{e.name}.{key}",
+                e.name,
+                w.quantity,
+                value,
+                low,
+                high,
+                f"{w.words} {float(low):g} to {float(high):g} {w.unit}",
+            )
+        )
     return out
 
 
@@ -158,14 +177,41 @@ def design_checks(project: Project, net: Netlist, br: Branches) -> tuple[Check, 
     for w in project.limits.nodes:
         v = float(br.node_voltage[index[w.node]])
         if w.min is not None:
-            out.append(window_check(f"nodes.{w.node}.min", w.node, "node voltage", v,
-                                    float(w.min), "min", "window minimum"))  # fmt: skip
+            out.append(
+                window_check(
+                    f"nodes.{w.node}.min",
+                    w.node,
+                    "node voltage",
+                    v,
+                    float(w.min),
+                    "min",
+                    "window minimum",
+                )
+            )
         if w.max is not None:
-            out.append(window_check(f"nodes.{w.node}.max", w.node, "node voltage", v,
-                                    float(w.max), "max", "window maximum"))  # fmt: skip
+            out.append(
+                window_check(
+                    f"nodes.{w.node}.max",
+                    w.node,
+                    "node voltage",
+                    v,
+                    float(w.max),
+                    "max",
+                    "window maximum",
+                )
+            )
     for w in project.limits.across:
         a, b = w.nodes
         v = float(br.node_voltage[index[a]] - br.node_voltage[index[b]])
-        out.append(range_check(f"across.{w.name}", w.name, "voltage across", v, w.min, w.max,
-                               f"window on V({a}) − V({b})"))  # fmt: skip
+        out.append(
+            range_check(
+                f"across.{w.name}",
+                w.name,
+                "voltage across",
+                v,
+                w.min,
+                w.max,
+                f"window on V({a}) − V({b})",
+            )
+        )
     return tuple(out)
