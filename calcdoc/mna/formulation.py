@@ -31,8 +31,7 @@ __all__ = [
 def current_unknowns(net: Netlist) -> list[int]:
     """Indices of the elements whose current is an MNA unknown, in column order."""
     st = structure(net)
-    cur = np.flatnonzero(st.col >= 0)
-    return cur[np.argsort(st.col[cur])].tolist()
+    return st.current_elements.tolist()
 
 
 def unknown_names(net: Netlist) -> tuple[str, ...]:
@@ -60,7 +59,7 @@ def formulation(net: Netlist | Structure) -> Formulation:
 
     def coefficient(sign: float, num: int, den: int) -> Coefficient:
         return Coefficient(
-            1 if sign > 0 else -1, names[num] if num < P else None, names[den] if den < P else None
+            int(sign), names[num] if num < P else None, names[den] if den < P else None
         )
 
     lhs: list[list[Term]] = [[] for _ in range(st.n)]
@@ -86,7 +85,7 @@ def formulation(net: Netlist | Structure) -> Formulation:
         strict=True,
     ):
         rhs[r].append(Term(coefficient(s, nu, de), None, net.names[e]))
-    owner = {int(st.col[j]): j for j in np.flatnonzero(st.col >= 0).tolist()}
+    owner = {int(st.col[j]): j for j in st.current_elements.tolist()}
     eqs = []
     for r in range(st.n):
         if r < n_nodes - 1:

@@ -149,11 +149,14 @@ class Structure:
             *self.more_symbols,
         )
 
+    @cached_property
+    def current_elements(self) -> np.ndarray:
+        """The elements whose current is an unknown, in column order (= element order)."""
+        return np.flatnonzero(self.mode == OWN)
+
     def unknowns(self) -> tuple[str, ...]:
-        cur = np.flatnonzero(self.col >= 0)
-        order = cur[np.argsort(self.col[cur])]
         return tuple(f"V({n})" for n in self.net.nodes[1:]) + tuple(
-            f"I({self.net.names[j]})" for j in order.tolist()
+            f"I({self.net.names[j]})" for j in self.current_elements.tolist()
         )
 
     def extended(self, p: np.ndarray | None = None) -> np.ndarray:
