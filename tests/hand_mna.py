@@ -21,7 +21,8 @@ thevenin        v − R·i = E (a source behind a resistance)
 =============== ==========================================
 
 Solved in exact rational arithmetic (Gauss–Jordan on fractions, written
-here); a system without a unique solution gives None.
+here; a system without a unique solution gives None), or with numpy in
+complex arithmetic for complex-step derivatives (:func:`solve_numeric`).
 """
 
 from __future__ import annotations
@@ -56,6 +57,26 @@ class Answer:
 
 
 def solve(parts: list[Part], reference: str = "gnd") -> Answer | None:
+    rows, nodes, col_v, col_i, n = _tableau(parts, reference)
+    x = _gauss_jordan(rows, n)
+    if x is None:
+        return None
+    v = {reference: Fraction(0), **{nd: x[col_v[nd]] for nd in nodes[1:]}}
+    return Answer(v, {p.name: x[col_i[p.name]] for p in parts})
+
+
+def solve_numeric(parts: list[Part], reference: str = "gnd") -> Answer:
+    """The same equations solved by numpy (values may be complex: complex-step derivatives)."""
+    import numpy as np
+
+    rows, nodes, col_v, col_i, n = _tableau(parts, reference)
+    M = np.array([[complex(v) for v in r] for r in rows])
+    x = np.linalg.solve(M[:, :n], M[:, n])
+    v = {reference: 0j, **{nd: x[col_v[nd]] for nd in nodes[1:]}}
+    return Answer(v, {p.name: x[col_i[p.name]] for p in parts})
+
+
+def _tableau(parts: list[Part], reference: str):
     nodes = [reference] + sorted({n for p in parts for n in (p.a, p.b)} - {reference})
     col_v = {n: k - 1 for k, n in enumerate(nodes) if k}
     nn = len(nodes) - 1
@@ -101,11 +122,7 @@ def solve(parts: list[Part], reference: str = "gnd") -> Answer | None:
             add_v(r, p.control[1], p.value)
         elif p.kind in ("ccvs", "cccs"):
             r[col_i[p.control]] -= p.value
-    x = _gauss_jordan(rows, n)
-    if x is None:
-        return None
-    v = {reference: Fraction(0), **{nd: x[col_v[nd]] for nd in nodes[1:]}}
-    return Answer(v, {p.name: x[col_i[p.name]] for p in parts})
+    return rows, nodes, col_v, col_i, n
 
 
 def _gauss_jordan(M: list[list[Fraction]], n: int) -> list[Fraction] | None:

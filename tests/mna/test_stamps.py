@@ -19,33 +19,12 @@ import pytest
 from extra_kinds import registered
 from hand_mna import Part
 from hand_mna import solve as hand_solve
+from netlists import rows_text as toml
 
 import calcdoc
 from calcdoc.mna import solve as solve_mod
 from calcdoc.mna.branches import branches
 from calcdoc.pipeline import solve_case
-
-UNIT = {"resistor": "ohm", "voltage_source": "V", "current_source": "A", "vcvs": "",
-        "vccs": "S", "ccvs": "ohm", "cccs": "", "thevenin": "V", "contact": "ohm",
-        "winding": ""}  # fmt: skip
-
-
-def toml(rows) -> str:
-    """Project text from (calcdoc type, Part, value text or None, extra keys)."""
-    lines = ["schema = 1"]
-    for etype, p, text, extra in rows:
-        key = "gain" if etype in ("vcvs", "vccs", "ccvs", "cccs") else "value"
-        number = p.value if p.value.denominator == 1 else float(p.value)  # exact decimals here
-        value = text if text is not None else f"{number} {UNIT[etype]}".strip()
-        lines += [f"[elements.{p.name}]", f'type = "{etype}"', f'nodes = ["{p.a}", "{p.b}"]',
-                  f'{key} = "{value}"']  # fmt: skip
-        if isinstance(p.control, tuple):
-            lines.append(f'control = ["{p.control[0]}", "{p.control[1]}"]')
-        elif p.control:
-            lines.append(f'control = "{p.control}"')
-        lines += [f"{k} = {v}" for k, v in extra.items()]
-    return "\n".join(lines) + "\n"
-
 
 # Every kind once, dependent sources controlled by voltages and by the
 # currents of a resistor, a voltage source, a current source and a VCCS;
