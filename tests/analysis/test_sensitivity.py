@@ -152,3 +152,18 @@ def test_outputs_given_replace_the_defaults():
     got = sensitivities(p, r, ("R2.current",))
     assert [s.output for s in got] == ["R2.current"]
     assert [s.output for s in sensitivities(p, r)] == ["out"]
+
+
+def test_micro_amp_outputs_of_megohm_resistors():
+    # 10 V over 3 MΩ + 1 MΩ: I = 2.5 µA, ∂I/∂R1 = −V/(R1 + R2)² = −6.25e-13 A/Ω, tiny
+    # in SI units but a normalised sensitivity of −0.75 (closed form).
+    p = calcdoc.loads(project_text(
+        [DIVIDER[0], ("R1", "resistor", ("in", "out"), "3 Mohm"),
+         ("R2", "resistor", ("out", "gnd"), "1 Mohm")],
+        extra='[analysis]\nsensitivity = ["R1.current"]\n',
+    ))  # fmt: skip
+    s = items(p)["R1.current"]
+    assert dict((n, v) for n, _, v in s.ranked) == pytest.approx(
+        {"V1": 1.0, "R1": -0.75, "R2": -0.25}, rel=1e-9
+    )
+    assert dict(s.absolute)["R1"] == pytest.approx(-6.25e-13, rel=1e-9)

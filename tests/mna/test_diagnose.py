@@ -212,3 +212,16 @@ def test_numbers_outside_their_sign():
     assert no_turns.detail == "W1: turns must be positive, found 0"
     # the short passes V1's 5 V to b; T1 with no resistance holds c at 1 V
     assert r.branches.exact_node_voltage == (0, 5, 5, 1)
+
+
+def test_parallel_sources_behind_a_resistor_with_its_own_current():
+    # R1 comes first and has a current unknown (it controls H1), but a
+    # resistor does not fix its voltage: the loop is V1 ∥ V2 alone.
+    e = fault([
+        ("R1", "resistor", ("a", "gnd"), "1 kohm"),
+        ("V1", "voltage_source", ("a", "gnd"), "5 V"),
+        ("V2", "voltage_source", ("a", "gnd"), "5 V"),
+        ("H1", "ccvs", ("h", "gnd"), "10 ohm", {"control": '"R1"'}),
+        ("Rh", "resistor", ("h", "gnd"), "1 kohm"),
+    ])  # fmt: skip
+    assert e.condition == "voltage loop" and e.culprits == ("V1", "V2")

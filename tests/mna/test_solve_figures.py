@@ -201,3 +201,38 @@ def test_null_space_components_at_rounding_level_are_not_named(monkeypatch):
     with pytest.raises(SingularCircuitError) as info:
         case(els, monkeypatch, EXACT_LIMIT=0)
     assert info.value.culprits == ("V(b)",)
+
+
+ONE_NODE = [
+    ("I1", "current_source", ("gnd", "a"), "2 A"),
+    ("R1", "resistor", ("a", "gnd"), "0.5 ohm"),
+]
+
+
+def test_a_zero_error_is_never_warned(monkeypatch):
+    # ERROR_WARNING: "when that estimate exceeds ERROR_WARNING the solution
+    # carries a warning"; an estimate of exactly zero exceeds no level, even zero.
+    r = case(ONE_NODE, monkeypatch, EXACT_LIMIT=0, ERROR_WARNING=0.0)
+    assert r.solution.error_estimate == 0 and r.solution.warnings == ()
+
+
+@pytest.mark.parametrize("path", ["dense", "sparse"])
+def test_singular_at_the_condition_limit(monkeypatch, path):
+    # SINGULAR: "condition at or above which a float system counts as
+    # singular". A 1×1 matrix has condition exactly 1: at a limit of 1 it is refused.
+    limits = {"EXACT_LIMIT": 0, "SINGULAR": 1.0} | ({"DENSE_LIMIT": 0} if path == "sparse" else {})
+    with pytest.raises(SingularCircuitError) as info:
+        case(ONE_NODE, monkeypatch, **limits)
+    assert info.value.condition == "singular system" and info.value.culprits == ("V(a)",)
+
+
+def test_refinement_stops_at_its_step_limit(monkeypatch):
+    # The 1e11-conditioned pair of nodes (1 mΩ link, 100 MΩ to ground each;
+    # see test_numerics) needs more than one correction; MAX_REFINEMENT caps them.
+    els = [("I1", "current_source", ("gnd", "a"), "1 nA"), ("R1", "resistor", ("a", "b"), "1 mohm"),
+           ("R2", "resistor", ("b", "gnd"), "100 Mohm"), ("R3", "resistor", ("a", "gnd"), "100 Mohm")]  # fmt: skip
+    free = case(els, monkeypatch, EXACT_LIMIT=0).solution.refinement_steps
+    assert free > 1
+    for cap in (0, 1):
+        monkeypatch.setattr(solve_mod, "MAX_REFINEMENT", cap)
+        assert case(els, monkeypatch).solution.refinement_steps == cap

@@ -149,3 +149,21 @@ def test_ledger_of_a_divider(monkeypatch, exact):
     # exact currents but node voltages in floats only: the float sums are used
     mixed = replace(r.branches, exact_node_voltage=None)
     assert balance.power_ledger(r.netlist, mixed).absorbed == pytest.approx(0.025, rel=1e-15)
+
+
+def test_plain_python_tree_up_to_the_small_size(monkeypatch):
+    # SMALL: "up to this, the spanning tree in plain Python (no scipy import)".
+    import scipy.sparse.csgraph as csgraph
+
+    r = case(WHEEL)
+
+    def scipy_tree(*args, **kw):
+        raise AssertionError("scipy's breadth-first order used")
+
+    monkeypatch.setattr(csgraph, "breadth_first_order", scipy_tree)
+    monkeypatch.setattr(balance, "SMALL", len(r.netlist.names))  # 8 elements: plain
+    kvl = balance.kvl_loops(r.netlist, r.branches)
+    assert {lp.chord: (lp.elements, lp.signs) for lp in kvl.loops} == WHEEL_LOOPS
+    monkeypatch.setattr(balance, "SMALL", len(r.netlist.names) - 1)
+    with pytest.raises(AssertionError, match="scipy's breadth-first order used"):
+        balance.kvl_loops(r.netlist, r.branches)
