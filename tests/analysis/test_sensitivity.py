@@ -41,7 +41,7 @@ def test_divider_derivatives_and_ranking():
         {"V1": 1.0, "R1": -0.75, "R2": 0.75}, rel=1e-12
     )
     # V(in) is V1's own value: it depends on V1 alone, with sensitivity 1
-    assert s["in"].ranked == (("V1", "element", pytest.approx(1.0, rel=1e-12)),)
+    assert s["in"].ranked == (("V1", "element", pytest.approx(1.0, rel=1e-12, abs=0)),)
 
 
 def test_element_outputs_by_the_adjoint():
@@ -113,7 +113,7 @@ sensitivity = ["Rd.current"]
     det = items(p)["Rd.current"]
     vth = 5 * (3.000001 / 4.500001 - 2 / 3)
     rth = 1 * 2 / 3 + 1.5 * 3.000001 / 4.500001 + 0.5
-    assert det.value == pytest.approx(-vth / (rth * 1000), rel=1e-6)
+    assert det.value == pytest.approx(-vth / (rth * 1000), rel=1e-6, abs=0)
     assert det.measure == "normalised"
 
 
@@ -142,8 +142,8 @@ sensitivity = ["R1.current"]
 """)
     s = items(p)["R1.current"]
     params = {n: v for n, kind, v in s.ranked if kind == "parameter"}
-    assert params == {"k": pytest.approx(-0.5, rel=1e-6)}
-    assert dict(s.absolute)["k"] == pytest.approx(-0.5 * (5 / 6000) / 4, rel=1e-6)
+    assert params == {"k": pytest.approx(-0.5, rel=1e-6, abs=0)}
+    assert dict(s.absolute)["k"] == pytest.approx(-0.5 * (5 / 6000) / 4, rel=1e-6, abs=0)
 
 
 def test_outputs_given_replace_the_defaults():
@@ -166,4 +166,4 @@ def test_micro_amp_outputs_of_megohm_resistors():
     assert dict((n, v) for n, _, v in s.ranked) == pytest.approx(
         {"V1": 1.0, "R1": -0.75, "R2": -0.25}, rel=1e-9
     )
-    assert dict(s.absolute)["R1"] == pytest.approx(-6.25e-13, rel=1e-9)
+    assert dict(s.absolute)["R1"] == pytest.approx(-6.25e-13, rel=1e-9, abs=0)

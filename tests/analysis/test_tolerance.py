@@ -94,10 +94,12 @@ def test_power_peak_inside_the_box_from_either_vertex(load, peak_from):
     rl = 1000 * float(load.split()[0])
     t = result(transfer(load, name="R.L"))
     p = t.elements["R.L"]["power"]
-    assert p.max == pytest.approx(0.025, rel=1e-10) and p.max_where == "inside"
+    assert p.max == pytest.approx(0.025, rel=1e-10, abs=0) and p.max_where == "inside"
     assert p.max_at[0] == pytest.approx(1000 / rl - 1, abs=1e-6)
     ends = {"lo": 0.9 * rl, "hi": 1.1 * rl}
-    assert p.min == pytest.approx(min(100 * x / (1000 + x) ** 2 for x in ends.values()), rel=1e-12)
+    assert p.min == pytest.approx(
+        min(100 * x / (1000 + x) ** 2 for x in ends.values()), rel=1e-12, abs=0
+    )
     assert p.min_where == "vertex"
     # only this one extreme needed the local search (every other output is
     # monotone in RL, or proved at a vertex)
@@ -106,9 +108,9 @@ def test_power_peak_inside_the_box_from_either_vertex(load, peak_from):
         "search from the best vertex"
     )
     chk = {c.id: c for c in t.checks}["R.L.power"]  # limit 0.04998 W × 50 % = 24.99 mW
-    assert chk.value == pytest.approx(0.025, rel=1e-10) and not chk.passed
-    assert chk.utilization == pytest.approx(0.025 / 0.02499, rel=1e-9)
-    assert chk.margin == pytest.approx(0.02499 - 0.025, rel=1e-6)
+    assert chk.value == pytest.approx(0.025, rel=1e-10, abs=0) and not chk.passed
+    assert chk.utilization == pytest.approx(0.025 / 0.02499, rel=1e-9, abs=0)
+    assert chk.margin == pytest.approx(0.02499 - 0.025, rel=1e-6, abs=0)
     assert chk.basis.endswith("; worst of the tolerance box")
 
 
@@ -157,8 +159,8 @@ def test_controlled_source_extremes_are_proved(monkeypatch, at_the_size_limit):
     t = result(vccs_stage())
     b = t.nodes["b"]
     assert b.how == "vertices, proved" and t.elements["G1"]["current"].how == "vertices, proved"
-    assert b.min == pytest.approx(-1e-3 * 2.2e-3 * 1050 * 525, rel=1e-12)
-    assert b.max == pytest.approx(-1e-3 * 1.8e-3 * 950 * 475, rel=1e-12)
+    assert b.min == pytest.approx(-1e-3 * 2.2e-3 * 1050 * 525, rel=1e-12, abs=0)
+    assert b.max == pytest.approx(-1e-3 * 1.8e-3 * 950 * 475, rel=1e-12, abs=0)
     assert b.min_at == (0.05, 0.1, 0.05) and b.max_at == (-0.05, -0.1, -0.05)
     assert t.elements["Rb"]["power"].how == "vertices and local search"
 
@@ -179,8 +181,8 @@ value = "1 kohm"
 """))  # fmt: skip
     o = t.nodes["o"]
     assert o.how == "vertices, proved"
-    assert o.max == pytest.approx(3.3 * vout(2970, 1010), rel=1e-12)
-    assert o.min == pytest.approx(2.7 * vout(3030, 990), rel=1e-12)
+    assert o.max == pytest.approx(3.3 * vout(2970, 1010), rel=1e-12, abs=0)
+    assert o.min == pytest.approx(2.7 * vout(3030, 990), rel=1e-12, abs=0)
 
 
 def test_vertices_picked_by_gradient_signs_above_the_limit(monkeypatch):
@@ -218,14 +220,14 @@ def test_rss_band_and_the_deviations_giving_it():
     t = result(divider(method="rss", volts="1"))
     out = t.nodes["out"]
     half = math.hypot(0.1875 * 0.01, 0.1875 * 0.01)
-    assert (out.min, out.max) == pytest.approx((0.25 - half, 0.25 + half), rel=1e-9)
+    assert (out.min, out.max) == pytest.approx((0.25 - half, 0.25 + half), rel=1e-9, abs=0)
     assert out.min_at == (0.01, -0.01) and out.max_at == (-0.01, 0.01)
     assert (out.how, out.min_where, out.max_where) == ("first order",) * 3
     assert t.solved == 1
     # the current falls with either resistance: a one-sided slope each
     i = t.elements["R1"]["current"]
     di = 1 / 4000 * 0.01  # |∂I/∂δ| = V·R/(R1 + R2)² per resistor, summed: V/(R1 + R2)
-    assert i.max - 0.00025 == pytest.approx(math.hypot(di * 0.75, di * 0.25), rel=1e-9)
+    assert i.max - 0.00025 == pytest.approx(math.hypot(di * 0.75, di * 0.25), rel=1e-9, abs=0)
 
 
 def test_rss_with_an_asymmetric_tolerance():
@@ -234,8 +236,8 @@ def test_rss_with_an_asymmetric_tolerance():
     t = result(divider(tol='{ minus = "3 %", plus = "1 %" }', method="rss", volts="1"))
     out = t.nodes["out"]
     g = 0.1875
-    assert out.max == pytest.approx(0.25 + math.hypot(g * 0.03, g * 0.01), rel=1e-9)
-    assert out.min == pytest.approx(0.25 - math.hypot(g * 0.01, g * 0.03), rel=1e-9)
+    assert out.max == pytest.approx(0.25 + math.hypot(g * 0.03, g * 0.01), rel=1e-9, abs=0)
+    assert out.min == pytest.approx(0.25 - math.hypot(g * 0.01, g * 0.03), rel=1e-9, abs=0)
 
 
 def test_monte_carlo_samples_recomputed(monkeypatch):
@@ -248,13 +250,13 @@ def test_monte_carlo_samples_recomputed(monkeypatch):
     d = -0.05 + 0.1 * u
     v = vout(3000 * (1 + d[:, 0]), 1000 * (1 + d[:, 1]))
     out = t.nodes["out"]
-    assert (out.min, out.max) == pytest.approx((v.min(), v.max()), rel=1e-12)
-    assert out.min_at == pytest.approx(tuple(d[v.argmin()]), rel=1e-12)
-    assert out.max_at == pytest.approx(tuple(d[v.argmax()]), rel=1e-12)
-    assert out.mean == pytest.approx(v.mean(), rel=1e-12)
-    assert out.std == pytest.approx(v.std(ddof=1), rel=1e-9)
-    assert out.p01 == pytest.approx(np.percentile(v, 1), rel=1e-12)
-    assert out.p99 == pytest.approx(np.percentile(v, 99), rel=1e-12)
+    assert (out.min, out.max) == pytest.approx((v.min(), v.max()), rel=1e-12, abs=0)
+    assert out.min_at == pytest.approx(tuple(d[v.argmin()]), rel=1e-12, abs=0)
+    assert out.max_at == pytest.approx(tuple(d[v.argmax()]), rel=1e-12, abs=0)
+    assert out.mean == pytest.approx(v.mean(), rel=1e-12, abs=0)
+    assert out.std == pytest.approx(v.std(ddof=1), rel=1e-9, abs=0)
+    assert out.p01 == pytest.approx(np.percentile(v, 1), rel=1e-12, abs=0)
+    assert out.p99 == pytest.approx(np.percentile(v, 99), rel=1e-12, abs=0)
     assert t.solved == 30
     assert t.note == (
         "30 random value sets (uniform within tolerance), seed 4; extremes are sample extremes"
@@ -347,5 +349,5 @@ def test_tolerance_of_a_circuit_above_the_dense_batch_size():
     # no controlled source: the determinant keeps its sign without a check, so
     # the vertex extremes are proved even above the dense size
     assert load.how == "vertices, proved"
-    assert load.min == pytest.approx(10 * 1000 / 71010, rel=1e-12)
-    assert load.max == pytest.approx(10 * 1000 / 70990, rel=1e-12)
+    assert load.min == pytest.approx(10 * 1000 / 71010, rel=1e-12, abs=0)
+    assert load.max == pytest.approx(10 * 1000 / 70990, rel=1e-12, abs=0)

@@ -46,14 +46,14 @@ def test_method_by_size_at_the_documented_limits(monkeypatch, limits, method, ke
     r = case(DIVIDER, monkeypatch, **limits)
     assert r.solution.method == method
     assert (r.solution.formulation is not None) == kept
-    assert r.branches.node_voltage[2] == pytest.approx(7.5, rel=1e-15)  # 10 V · 3k/(1k + 3k)
+    assert r.branches.node_voltage[2] == pytest.approx(7.5, rel=1e-15, abs=0)  # 10 V · 3k/(1k + 3k)
 
 
 def test_a_value_that_is_not_rational_takes_the_float_path():
     r = case([("V1", "voltage_source", ("a", "gnd"), "1 V"),
               ("R1", "resistor", ("a", "gnd"), "sqrt(2) * 1 kohm")])  # fmt: skip
     assert r.solution.method == "dense LU"
-    assert r.branches.current[1] == pytest.approx(1 / (2**0.5 * 1000), rel=1e-15)
+    assert r.branches.current[1] == pytest.approx(1 / (2**0.5 * 1000), rel=1e-15, abs=0)
 
 
 def test_exact_elimination_gives_way_beyond_the_bit_limit(monkeypatch):
@@ -94,7 +94,7 @@ def test_relative_residual_recomputed_exactly(monkeypatch, path):
     res = max(abs(0 - (va / 3 + iv)), abs(4 - va))
     want = res / (Fraction(4, 3) * max(abs(va), abs(iv)) + 4)
     assert res > 0
-    assert r.solution.residual == pytest.approx(float(want), rel=1e-2)
+    assert r.solution.residual == pytest.approx(float(want), rel=1e-2, abs=0)
     assert r.solution.error_estimate < 1e-15 and r.solution.warnings == ()
 
 
@@ -131,7 +131,7 @@ def test_condition_of_the_equilibrated_matrix(monkeypatch, path):
     want = equilibrated_condition(A)
     assert want < 20 < np.linalg.cond(A, 1)  # equilibration matters here
     if path == "dense":
-        assert r.solution.condition == pytest.approx(want, rel=1e-12)
+        assert r.solution.condition == pytest.approx(want, rel=1e-12, abs=0)
     else:  # a 1-norm estimate: a lower bound, and close for a 3×3 matrix
         assert want / 3 <= r.solution.condition <= want * (1 + 1e-12)
     np.testing.assert_allclose(r.solution.x, np.linalg.solve(A, [1.0, 0, 0]), rtol=1e-14)
@@ -142,7 +142,7 @@ def test_large_unknowns_are_not_taken_for_large_errors(monkeypatch):
     # estimated error is relative to the size of x, so it stays at rounding level.
     r = case([("V1", "voltage_source", ("a", "gnd"), "100 kV"),
               ("R1", "resistor", ("a", "gnd"), "3 mohm")], monkeypatch, EXACT_LIMIT=0)  # fmt: skip
-    assert r.solution.x[1] == pytest.approx(-1e5 / 3e-3, rel=1e-15)
+    assert r.solution.x[1] == pytest.approx(-1e5 / 3e-3, rel=1e-15, abs=0)
     assert r.solution.error_estimate < 1e-15 and r.solution.warnings == ()
 
 
@@ -236,3 +236,27 @@ def test_refinement_stops_at_its_step_limit(monkeypatch):
     for cap in (0, 1):
         monkeypatch.setattr(solve_mod, "MAX_REFINEMENT", cap)
         assert case(els, monkeypatch).solution.refinement_steps == cap
+
+
+@pytest.mark.parametrize("path", ["dense", "sparse"])
+def test_column_equilibration_of_a_high_gain_stage(monkeypatch, path):
+    # 1 V at x, a VCVS of gain 10⁶ from x to o, 1 kΩ load at o. Unknowns V(x),
+    # V(o), I(V1), I(E1); rows KCL(x), KCL(o), law of V1, law of E1 (by hand).
+    # Row scaling shrinks E1's row by 2⁻²⁰, which leaves V(o)'s column at
+    # 10⁻³: the column scaling matters here.
+    els = [
+        ("V1", "voltage_source", ("x", "gnd"), "1 V"),
+        ("E1", "vcvs", ("o", "gnd"), "1e6", {"control": '["x", "gnd"]'}),
+        ("RL", "resistor", ("o", "gnd"), "1 kohm"),
+    ]
+    A = np.array(
+        [[0, 0, 1, 0], [0, 1e-3, 0, 1], [1, 0, 0, 0], [-1e6, 1, 0, 0]], dtype=float
+    )  # fmt: skip
+    limits = {"EXACT_LIMIT": 0} | ({"DENSE_LIMIT": 0} if path == "sparse" else {})
+    r = case(els, monkeypatch, **limits)
+    want = equilibrated_condition(A)
+    if path == "dense":
+        assert r.solution.condition == pytest.approx(want, rel=1e-12, abs=0)
+    else:
+        assert want / 3 <= r.solution.condition <= want * (1 + 1e-12)
+    assert r.solution.x.tolist() == pytest.approx([1.0, 1e6, 0.0, -1e3], rel=1e-15, abs=0)

@@ -103,7 +103,7 @@ def test_summary_sums_follow_a_wrong_law_voltage(monkeypatch):
     monkeypatch.setattr(balance, "LOOP_LISTING_LIMIT", 0)
     summary = balance.kvl_loops(r.netlist, bad)
     assert np.abs(summary.sums).round(12).tolist() == [0.0, 0.0, 1.0, 0.0]
-    assert summary.max_abs_sum == pytest.approx(1.0, rel=1e-12)
+    assert summary.max_abs_sum == pytest.approx(1.0, rel=1e-12, abs=0)
 
 
 def test_loops_through_parallel_elements_below_the_root():
@@ -141,14 +141,14 @@ def test_ledger_of_a_divider(monkeypatch, exact):
     # and the source delivers 25 mW (Ohm's law, common practice, no source).
     r = case(DIVIDER, monkeypatch, **({} if exact else {"EXACT_LIMIT": 0}))
     led = r.ledger
-    assert led.absorbed == pytest.approx(0.025, rel=1e-15)
-    assert led.delivered == pytest.approx(0.025, rel=1e-15)
+    assert led.absorbed == pytest.approx(0.025, rel=1e-15, abs=0)
+    assert led.delivered == pytest.approx(0.025, rel=1e-15, abs=0)
     assert abs(led.imbalance) <= 1e-17
     by = dict(led.by_element)
-    assert by == pytest.approx({"V1": -0.025, "R1": 0.00625, "R2": 0.01875}, rel=1e-15)
+    assert by == pytest.approx({"V1": -0.025, "R1": 0.00625, "R2": 0.01875}, rel=1e-15, abs=0)
     # exact currents but node voltages in floats only: the float sums are used
     mixed = replace(r.branches, exact_node_voltage=None)
-    assert balance.power_ledger(r.netlist, mixed).absorbed == pytest.approx(0.025, rel=1e-15)
+    assert balance.power_ledger(r.netlist, mixed).absorbed == pytest.approx(0.025, rel=1e-15, abs=0)
 
 
 def test_plain_python_tree_up_to_the_small_size(monkeypatch):

@@ -91,7 +91,9 @@ def test_node_windows_at_their_edges():
         c = checks[cid]
         assert (c.value, c.limit) == pytest.approx((value, limit), abs=1e-15), cid
         assert c.margin == pytest.approx(margin, abs=1e-15), cid
-        assert c.utilization == (None if util is None else pytest.approx(util, rel=1e-12)), cid
+        assert c.utilization == (None if util is None else pytest.approx(util, rel=1e-12, abs=0)), (
+            cid
+        )
         assert c.bound == cid.rsplit(".", 1)[1]
         assert c.passed == (margin >= 0), cid
 
@@ -143,7 +145,7 @@ def test_derating_lowers_power_limits_only():
     # IEC 60115-1 curve, knee 70 °C, zero 155 °C (the default; from memory):
     # at 112.5 °C half the rated power is allowed: 0.1 W × 50 % × 0.5 = 25 mW.
     c = rated('ambient = "112.5 °C"')
-    assert c["R1.power"].limit == pytest.approx(0.025, rel=1e-12)
+    assert c["R1.power"].limit == pytest.approx(0.025, rel=1e-12, abs=0)
     assert c["R1.power"].basis == (
         "rated 0.1 W × 50 % policy × 0.5 derating at 112.5 °C (knee 70 °C, zero 155 °C)"
     )
