@@ -167,3 +167,32 @@ def test_micro_amp_outputs_of_megohm_resistors():
         {"V1": 1.0, "R1": -0.75, "R2": -0.25}, rel=1e-9
     )
     assert dict(s.absolute)["R1"] == pytest.approx(-6.25e-13, rel=1e-9, abs=0)
+
+
+def test_a_ratio_does_not_depend_on_a_common_scale():
+    # R1 = k·1 kΩ, R2 = k·2 kΩ: V(R2) = 5 V·R2/(R1 + R2) = 10/3 V whatever k
+    # (closed form): k is not listed, even though its derivative is formed
+    # numerically; S(R1) = −1/3, S(R2) = +1/3, S(V1) = 1.
+    p = calcdoc.loads("""
+[parameters]
+k = "1.3"
+[elements.V1]
+type = "voltage_source"
+nodes = ["e", "gnd"]
+value = "5 V"
+[elements.R1]
+type = "resistor"
+nodes = ["e", "x"]
+value = "k * 1 kohm"
+[elements.R2]
+type = "resistor"
+nodes = ["x", "gnd"]
+value = "k * 2 kohm"
+[analysis]
+sensitivity = ["R2.voltage"]
+""")
+    s = items(p)["R2.voltage"]
+    assert s.method == "adjoint"
+    assert dict((n, v) for n, _, v in s.ranked) == pytest.approx(
+        {"V1": 1.0, "R1": -1 / 3, "R2": 1 / 3}, rel=1e-9, abs=0
+    )

@@ -331,8 +331,9 @@ def test_no_result_without_the_method():
 
 @pytest.mark.xfail(
     strict=True,
-    reason="calcdoc/mna/batch.py solve_x: the sparse batch path (more than DENSE_UNKNOWNS "
-    "unknowns) hands SuperLU non-contiguous rows and fails with ValueError",
+    reason="calcdoc/mna/batch.py solve_x: on the sparse batch path (more than DENSE_UNKNOWNS "
+    "unknowns) a chunk of two value sets (here the two vertices of one toleranced value) "
+    "reaches SuperLU as a non-contiguous row and fails with ValueError",
 )
 def test_tolerance_of_a_circuit_above_the_dense_batch_size():
     # 10 V over a chain of 70 × 1 kΩ and a 1 kΩ load; only the first link is
@@ -351,3 +352,34 @@ def test_tolerance_of_a_circuit_above_the_dense_batch_size():
     assert load.how == "vertices, proved"
     assert load.min == pytest.approx(10 * 1000 / 71010, rel=1e-12, abs=0)
     assert load.max == pytest.approx(10 * 1000 / 70990, rel=1e-12, abs=0)
+
+
+def test_a_current_that_cancels_inside_the_box():
+    # 1 mA into m; F1 takes β·1 mA back out, β = 1 ± 10 %: R1 carries
+    # (1 − β)·1 mA, so its dissipation 1 kΩ·(1 − β)²·(1 mA)² is 10 µW at either
+    # vertex and zero inside, at β = 1 (hand solution).
+    t = result(calcdoc.loads("""
+[elements.I1]
+type = "current_source"
+nodes = ["gnd", "m"]
+value = "1 mA"
+[elements.F1]
+type = "cccs"
+nodes = ["m", "gnd"]
+gain = "1"
+control = "I1"
+tolerance = "10 %"
+[elements.R1]
+type = "resistor"
+nodes = ["m", "gnd"]
+value = "1 kohm"
+[analysis]
+tolerance = "extreme"
+"""))  # fmt: skip
+    p = t.elements["R1"]["power"]
+    assert p.max == pytest.approx(1e-5, rel=1e-12, abs=0) and p.max_where == "vertex"
+    assert p.min_where == "inside" and abs(p.min) <= 1e-20
+    assert p.min_at[0] == pytest.approx(0.0, abs=1e-6)
+    m = t.nodes["m"]  # V(m) = 1 kΩ·(1 − β)·1 mA: monotone, ±0.1 V at the vertices
+    assert (m.min, m.max) == pytest.approx((-0.1, 0.1), rel=1e-12, abs=0)
+    assert m.how == "vertices, proved"
