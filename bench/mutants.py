@@ -4,15 +4,37 @@ Run by hand (it takes a while; never part of the test suite)::
 
     python3 bench/mutants.py                 # 25 mutants per module, seed 1
     python3 bench/mutants.py -n 40 --seed 7 calcdoc/mna/stamps.py
+    python3 bench/mutants.py --list calcdoc/mna/solve.py
 
 Each mutant changes one operator or number in one module of a scratch
 copy of the repository (+ ↔ −, * ↔ /, < ↔ <=, > ↔ >=, == ↔ !=, and ↔ or,
-a unary minus dropped, a small integer changed by one, a float doubled)
-and runs the tests that cover the module, stopping at the first failure.
-A mutant is *killed* when a test fails or the run times out.  Survivors
-are listed with their line so the tests can be strengthened; equivalent
-mutants (changes that cannot alter behaviour) are counted as survivors,
-so the figure is a lower bound.
+a unary minus dropped, an integer increased by one, a float doubled or,
+for 0.0, made 1.0) and runs the tests that cover the module, stopping at
+the first failure.  A mutant is *killed* when a test fails or the run
+times out.  Survivors are listed with their line so the tests can be
+strengthened.
+
+What is counted
+---------------
+- A change that leaves the text's value unchanged is not generated (it
+  is not a mutant: ``0.0`` doubled is ``0.0``).
+- **Tuning constants** are counted apart: a number in a module-level
+  assignment of one UPPER_CASE name to one number literal
+  (``DENSE_LIMIT = 400``, ``SMALL = 2000``, ``ERROR_WARNING = 1e-9``).
+  Such a constant picks where one method gives way to another or when a
+  note is written; moving it by one or doubling it changes which correct
+  method runs, not the result, so most of these mutants are equivalent.
+  Every one of them is still run (none is sampled away) and its figure
+  printed beside the score, and the *raw* figure counts them in; the
+  *adjusted* figure, the score, leaves them out.  The rule is by form,
+  not by outcome: numbers inside functions, tables and tuples
+  (``OWN, CONDUCTANCE, CURRENT = 0, 1, 2``) are always scored, and so is
+  every tolerance written inside the code.
+- Other equivalent mutants are counted as survivors, so the score is a
+  lower bound.
+
+Each module's sample depends only on the seed and the module (running one
+module alone samples the same mutants as the full run).
 """
 
 from __future__ import annotations
@@ -31,17 +53,26 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
 
+ENGINE_TESTS = ["tests/mna", "tests/verify", "tests/analysis", "tests/test_golden.py",
+                "tests/test_engine_basics.py"]  # fmt: skip
+
+
+def _tests(first: str) -> list[str]:
+    """The engine tests, the module's own test directory first (quickest kill)."""
+    return [first, *(t for t in ENGINE_TESTS if t != first)]
+
+
 TARGETS = {
-    "calcdoc/mna/stamps.py": ["tests/mna", "tests/test_golden.py", "tests/verify"],
-    "calcdoc/mna/formulation.py": ["tests/mna", "tests/test_golden.py"],
-    "calcdoc/mna/branches.py": ["tests/mna", "tests/test_golden.py", "tests/verify"],
-    "calcdoc/mna/solve.py": ["tests/mna", "tests/test_golden.py"],
-    "calcdoc/mna/diagnose.py": ["tests/mna"],
-    "calcdoc/mna/batch.py": ["tests/analysis"],
-    "calcdoc/verify/balance.py": ["tests/verify", "tests/mna", "tests/test_golden.py"],
-    "calcdoc/verify/checks.py": ["tests/verify", "tests/test_golden.py", "tests/analysis"],
-    "calcdoc/analysis/tolerance.py": ["tests/analysis"],
-    "calcdoc/analysis/sensitivity.py": ["tests/analysis"],
+    "calcdoc/mna/stamps.py": _tests("tests/mna"),
+    "calcdoc/mna/formulation.py": _tests("tests/mna"),
+    "calcdoc/mna/branches.py": _tests("tests/mna"),
+    "calcdoc/mna/solve.py": _tests("tests/mna"),
+    "calcdoc/mna/diagnose.py": _tests("tests/mna"),
+    "calcdoc/mna/batch.py": _tests("tests/mna"),
+    "calcdoc/verify/balance.py": _tests("tests/verify"),
+    "calcdoc/verify/checks.py": _tests("tests/verify"),
+    "calcdoc/analysis/tolerance.py": _tests("tests/analysis"),
+    "calcdoc/analysis/sensitivity.py": _tests("tests/analysis"),
 }
 
 SWAPS = {
@@ -59,6 +90,7 @@ class Mutant:
     end: int
     old: str
     new: str
+    constant: bool = False  # in a module-level UPPER_CASE number constant
 
     def describe(self) -> str:
         return f"{self.path}:{self.line}: {self.old!r} -> {self.new!r}"
@@ -82,11 +114,37 @@ def _docstring_nodes(tree: ast.AST) -> set[int]:
     return out
 
 
+def _constant_spans(tree: ast.Module) -> list[tuple[int, int, int, int]]:
+    """(line, col, end line, end col) of each module-level ``NAME = number`` value."""
+    out = []
+    for node in tree.body:
+        if isinstance(node, ast.Assign):
+            targets, value = node.targets, node.value
+        elif isinstance(node, ast.AnnAssign) and node.value is not None:
+            targets, value = [node.target], node.value
+        else:
+            continue
+        if not all(isinstance(t, ast.Name) and t.id.isupper() for t in targets):
+            continue
+        inner = value.operand if isinstance(value, ast.UnaryOp) else value
+        if isinstance(inner, ast.Constant) and type(inner.value) in (int, float):
+            out.append((value.lineno, value.col_offset, value.end_lineno, value.end_col_offset))
+    return out
+
+
+def _changed(node: ast.Constant) -> str | None:
+    """The mutated literal, or None where the change would leave the value as it is."""
+    v = node.value
+    new = v + 1 if isinstance(v, int) else (v * 2 if v != 0 else 1.0)
+    return None if new == v else repr(new)
+
+
 def mutants(path: str) -> list[Mutant]:
     text = (ROOT / path).read_text()
     tree = ast.parse(text)
     off = _offsets(text)
     docs = _docstring_nodes(tree)
+    spans = _constant_spans(tree)
 
     lines = text.splitlines(keepends=True)
 
@@ -134,11 +192,18 @@ def mutants(path: str) -> list[Mutant]:
             and not isinstance(node.value, bool)
             and node.lineno == node.end_lineno
         ):
+            new = _changed(node)
+            if new is None:
+                continue
             lo, hi = at(node.lineno, node.col_offset), at(node.end_lineno, node.end_col_offset)
-            old = text[lo:hi]
-            new = repr(node.value + 1) if isinstance(node.value, int) else repr(node.value * 2)
-            out.append(Mutant(path, node.lineno, lo, hi, old, new))
-    return out
+            out.append(Mutant(path, node.lineno, lo, hi, text[lo:hi], new))
+    constant = [(at(a, b), at(c, d)) for a, b, c, d in spans]
+    return [
+        Mutant(m.path, m.line, m.start, m.end, m.old, m.new, True)
+        if any(lo <= m.start and m.end <= hi for lo, hi in constant)
+        else m
+        for m in out
+    ]
 
 
 def run(copy: Path, m: Mutant, tests: list[str], timeout: float) -> bool:
@@ -163,33 +228,51 @@ def run(copy: Path, m: Mutant, tests: list[str], timeout: float) -> bool:
 def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("modules", nargs="*", default=list(TARGETS))
-    ap.add_argument("-n", type=int, default=25, help="mutants sampled per module")
+    ap.add_argument("-n", type=int, default=25, help="scored mutants sampled per module")
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--timeout", type=float, default=300)
+    ap.add_argument("--list", action="store_true", help="list every mutant and stop")
+    ap.add_argument("--no-constants", action="store_true",
+                    help="skip the tuning-constant mutants (no raw figure)")  # fmt: skip
     args = ap.parse_args()
-    rng = random.Random(args.seed)
+    if args.list:
+        for path in args.modules:
+            for m in mutants(path):
+                print(("constant  " if m.constant else "scored    ") + m.describe())
+        return 0
     with tempfile.TemporaryDirectory(prefix="calcdoc-mutants-") as tmp:
         copy = Path(tmp) / "repo"
         shutil.copytree(ROOT, copy, ignore=shutil.ignore_patterns(".git", "__pycache__", "*.pdf"))
-        total = killed = 0
+        totals = {"scored": [0, 0], "constant": [0, 0]}  # [killed, run]
         survivors: list[Mutant] = []
         for path in args.modules:
             pool = mutants(path)
-            sample = rng.sample(pool, min(args.n, len(pool)))
-            k = 0
+            scored = [m for m in pool if not m.constant]
+            constants = [] if args.no_constants else [m for m in pool if m.constant]
+            rng = random.Random(f"{args.seed}:{path}")
+            sample = rng.sample(scored, min(args.n, len(scored)))
             t0 = time.perf_counter()
-            for m in sample:
-                if run(copy, m, TARGETS.get(path, ["tests"]), args.timeout):
-                    k += 1
-                else:
-                    survivors.append(m)
-            total += len(sample)
-            killed += k
-            print(f"{path}: {k}/{len(sample)} killed ({len(pool)} possible) "
-                  f"in {time.perf_counter() - t0:.0f} s", flush=True)  # fmt: skip
-        print(f"\nkilled {killed} of {total} mutants: {100 * killed / max(total, 1):.1f} %")
+            counts = {}
+            for label, group in (("scored", sample), ("constant", constants)):
+                k = 0
+                for m in group:
+                    if run(copy, m, TARGETS.get(path, ["tests"]), args.timeout):
+                        k += 1
+                    else:
+                        survivors.append(m)
+                counts[label] = (k, len(group))
+                totals[label][0] += k
+                totals[label][1] += len(group)
+            (k, n), (kc, nc) = counts["scored"], counts["constant"]
+            print(f"{path}: {k}/{n} killed ({len(scored)} possible); tuning constants "
+                  f"{kc}/{nc}; raw {k + kc}/{n + nc} in {time.perf_counter() - t0:.0f} s",
+                  flush=True)  # fmt: skip
+        (k, n), (kc, nc) = totals["scored"], totals["constant"]
+        print(f"\nadjusted: killed {k} of {n} mutants: {100 * k / max(n, 1):.1f} %")
+        print(f"raw (tuning constants counted in): killed {k + kc} of {n + nc}: "
+              f"{100 * (k + kc) / max(n + nc, 1):.1f} %")  # fmt: skip
         for m in survivors:
-            print("  survived:", m.describe())
+            print("  survived:", ("(constant) " if m.constant else "") + m.describe())
     return 0
 
 

@@ -68,3 +68,34 @@ def test_substituted_values_give_the_matrix_that_was_solved():
     g1, g2 = Fraction(1, 1000), Fraction(1, 4000)
     assert [[g1, -g1, 1], [-g1, g1 + g2, 0], [1, 0, 0]] == A
     assert z == [0, 0, 10]
+
+
+def test_further_keys_states_and_a_one_ohm_resistor():
+    # Test-only kinds (tests/extra_kinds.py): a source behind its resistance
+    # R(T1) (a further number key), a winding whose resistance R(W1) is
+    # stamped as a conductance, a winding without one (an ideal short, its
+    # current an unknown), and an open contact (no current, no term).  The
+    # 1 Ω resistor is an ordinary conductance.  Equations by hand, as above.
+    from extra_kinds import registered
+
+    with registered():
+        form, lines = equations([
+            ("T1", "thevenin", ("a", "gnd"), "5 V", {"resistance": '"50 ohm"'}),
+            ("R1", "resistor", ("a", "b"), "1 ohm"),
+            ("W1", "winding", ("b", "c"), "1", {"resistance": '"2 ohm"'}),
+            ("W2", "winding", ("c", "d"), "1"),
+            ("R2", "resistor", ("d", "gnd"), "4 ohm"),
+            ("K1", "contact", ("b", "gnd"), "10 ohm", {"state": '"open"'}),
+        ])  # fmt: skip
+    assert form.unknowns == ("V(a)", "V(b)", "V(c)", "V(d)", "I(T1)", "I(W2)")
+    assert lines == [
+        "KCL at node a: I(T1) + V(a)/R1 − V(b)/R1 = 0",
+        "KCL at node b: − V(a)/R1 + V(b)/R1 + V(b)/R(W1) − V(c)/R(W1) = 0",
+        "KCL at node c: − V(b)/R(W1) + V(c)/R(W1) + I(W2) = 0",
+        "KCL at node d: − I(W2) + V(d)/R2 = 0",
+        "Branch equation of T1: V(a) − R(T1)·I(T1) = T1",
+        "Branch equation of W2: V(c) − V(d) = 0",
+    ]
+    assert {s.name: s.unit for s in form.symbols} == {
+        "T1": "V", "R(T1)": "Ω", "R1": "Ω", "R(W1)": "Ω", "R2": "Ω",
+    }  # fmt: skip
