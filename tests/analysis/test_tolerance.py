@@ -329,12 +329,6 @@ def test_no_result_without_the_method():
     assert tolerance.tolerance_result(p, solve_case(p)) is None
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="calcdoc/mna/batch.py solve_x: on the sparse batch path (more than DENSE_UNKNOWNS "
-    "unknowns) a chunk of two value sets (here the two vertices of one toleranced value) "
-    "reaches SuperLU as a non-contiguous row and fails with ValueError",
-)
 def test_tolerance_of_a_circuit_above_the_dense_batch_size():
     # 10 V over a chain of 70 × 1 kΩ and a 1 kΩ load; only the first link is
     # toleranced (±1 %): V(load) = 10 V · 1 kΩ / (71 kΩ ± 10 Ω) (closed form).

@@ -76,22 +76,13 @@ def circuit():
         yield r, st, parameter_setter(st), [q for _, q, _, _ in ROWS]
 
 
-SPARSE_BATCH_BUG = (
-    "calcdoc/mna/batch.py solve_x, sparse path: each value set's entries are a row of a "
-    "transposed (Fortran-ordered) array, passed to csc_matrix without a copy; with scipy "
-    "1.17 SuperLU refuses it (ValueError: sparse matrix arrays must be 1-D C-contiguous) "
-    "whenever a chunk holds exactly two value sets (one toleranced quantity: two vertices)"
-)
-
-
 @pytest.mark.parametrize(
     "path",
     [
         "dense",
         "dense in chunks",
         "sparse in chunks of three",
-        pytest.param("sparse in chunks of two",
-                     marks=pytest.mark.xfail(strict=True, reason=SPARSE_BATCH_BUG)),
+        "sparse in chunks of two",  # SuperLU takes contiguous rows only (fixed in batch.py)
     ],
 )  # fmt: skip
 def test_batches_of_value_sets_against_the_hand_solution(monkeypatch, circuit, path):
