@@ -58,8 +58,15 @@ def patterns(net: Netlist) -> Structure:
     return structure(net)
 
 
+SMALL_MAP = 2_000_000  # entries up to which a map is a dense array (no scipy import)
+
+
 def dense_map(t: Triplets, n: int, rows: int):
-    """(T, rows·n) map placing triplet values at row·n + col."""
+    """(T, rows·n) map placing triplet values at row·n + col (dense when small)."""
+    if len(t) * rows * n <= SMALL_MAP:
+        W = np.zeros((len(t), rows * n))
+        W[np.arange(len(t)), t.row * n + t.col] = 1.0
+        return W
     from scipy.sparse import csr_matrix
 
     return csr_matrix(
@@ -214,6 +221,10 @@ def parameter_jacobian(st: Structure, p: np.ndarray, x: np.ndarray):
     rows = np.concatenate([pa, pz])
     cols = np.concatenate([ra, rz])
     vals = np.concatenate([ca, cz])
+    if P * n <= SMALL_MAP:  # small circuits: a dense array (no scipy import)
+        R = np.zeros((P, n))
+        np.add.at(R, (rows, cols), vals)
+        return R
     from scipy.sparse import csr_matrix
 
     return csr_matrix((vals, (rows, cols)), shape=(P, n))
