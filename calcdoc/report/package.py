@@ -49,6 +49,7 @@ from calcdoc.report.circuit import (
 )
 from calcdoc.report.conclusion import conclusion_section
 from calcdoc.report.cover import CAUTIONS, cover
+from calcdoc.report.flowables import Heading
 from calcdoc.report.fonts import register_fonts
 from calcdoc.report.front import inputs_section, method_section
 from calcdoc.report.furniture import RecordingDoc, SheetCanvas, furniture
@@ -56,6 +57,8 @@ from calcdoc.report.layout import Layout, group_leads
 from calcdoc.report.solution import solution_section, verification_section
 from calcdoc.report.summary import record_summary
 from calcdoc.report.text import text_warnings
+
+UNKNOWN_SHEET = 99  # a two-digit stand-in for a sheet number before the first pass
 
 __all__ = ["CAUTIONS", "PackageOutput", "build_package", "default_output"]
 
@@ -250,6 +253,12 @@ def build_package(
     doc.addPageTemplates([PageTemplate("cover", [frame]), PageTemplate("body", [frame])])
     draw = furniture(p, style, fonts, lay.summary.status, size)
     canvas_cls = type("Sheets", (SheetCanvas,), {"furniture": staticmethod(draw)})
+    # The contents get their rows before the first pass (sheet numbers still
+    # unknown), so the sections keep their sheets when the real numbers
+    # arrive: two passes instead of three.
+    toc.addEntries(  # laid out in the first pass (reportlab fills the contents one pass late)
+        [(f.toc_level, f.toc_text, UNKNOWN_SHEET) for f in story if isinstance(f, Heading)]
+    )
     doc.multiBuild(group_leads(story), canvasmaker=canvas_cls)
     say("attaching the input and results")
     pdf = _attach(buf.getvalue(), results)
