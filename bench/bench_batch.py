@@ -41,8 +41,14 @@ def wall(args: list[str], cwd: Path) -> float:
     env = dict(os.environ, PYTHONPATH=str(ROOT))
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t = time.perf_counter()
-    subprocess.run([sys.executable, "-m", "calcdoc", *args], cwd=cwd, env=env, check=False,
-                   stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)  # fmt: skip
+    subprocess.run(
+        [sys.executable, "-m", "calcdoc", *args],
+        cwd=cwd,
+        env=env,
+        check=False,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )
     elapsed = time.perf_counter() - t
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
     CPU["last"] = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
@@ -65,28 +71,39 @@ def main() -> None:
                 times.append(wall(["build", str(demo), "-o", str(work / "one.pdf"), "-q"], work))
                 cpu.append(CPU["last"])
             singles[demo.stem] = statistics.median(times)
-            print(f"single build {demo.stem:18s} median {singles[demo.stem]:.2f} s "
-                  f"(min {min(times):.2f}, max {max(times):.2f}; imports included; "
-                  f"CPU {statistics.median(cpu):.2f} s)")  # fmt: skip
+            print(
+                f"single build {demo.stem:18s} median {singles[demo.stem]:.2f} s "
+                f"(min {min(times):.2f}, max {max(times):.2f}; imports included; "
+                f"CPU {statistics.median(cpu):.2f} s)"
+            )
         one = statistics.median(singles.values())
         folder = work / "set"
         folder.mkdir()
         for i in range(opts.records):
             demo = DEMOS[i % len(DEMOS)]
             text = demo.read_text(encoding="utf-8")
-            text = re.sub(r'^number = ".*"$', f'number = "BENCH-{i + 1:03d}"', text, count=1,
-                          flags=re.MULTILINE)  # fmt: skip
+            text = re.sub(
+                r'^number = ".*"$',
+                f'number = "BENCH-{i + 1:03d}"',
+                text,
+                count=1,
+                flags=re.MULTILINE,
+            )
             (folder / f"record_{i + 1:03d}.toml").write_text(text, encoding="utf-8")
         batch = wall(["build", str(folder), "-j", str(cpus), "-q"], work)
         batch_cpu = CPU["last"]
         target = 1.3 * one * opts.records / cpus
-        print(f"set of {opts.records} records, -j {cpus}: {batch:.1f} s; ideal "
-              f"{one * opts.records / cpus:.1f} s, target {target:.1f} s "
-              f"({batch / (one * opts.records / cpus):.2f} x ideal); CPU {batch_cpu:.1f} s, "
-              f"{batch_cpu / opts.records:.2f} s a record")  # fmt: skip
+        print(
+            f"set of {opts.records} records, -j {cpus}: {batch:.1f} s; ideal "
+            f"{one * opts.records / cpus:.1f} s, target {target:.1f} s "
+            f"({batch / (one * opts.records / cpus):.2f} x ideal); CPU {batch_cpu:.1f} s, "
+            f"{batch_cpu / opts.records:.2f} s a record"
+        )
         serial = wall(["build", str(folder), "-j", "1", "-q"], work)
-        print(f"same set, -j 1: {serial:.1f} s ({serial / opts.records:.2f} s a record, "
-              f"speed-up with -j {cpus}: {serial / batch:.2f})")  # fmt: skip
+        print(
+            f"same set, -j 1: {serial:.1f} s ({serial / opts.records:.2f} s a record, "
+            f"speed-up with -j {cpus}: {serial / batch:.2f})"
+        )
         skipped = wall(["build", str(folder), "--changed", "-q"], work)
         print(f"same set, --changed, nothing changed: {skipped:.1f} s")
         print(f"load average {os.getloadavg()[0]:.2f} at the end")

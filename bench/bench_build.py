@@ -23,8 +23,14 @@ ROOT = HERE.parent
 
 def network(nodes: int = 200, elements: int = 400, seed: int = 5) -> str:
     rng = random.Random(seed)
-    out = ["schema = 1", "[document]", 'title = "Generated 200-node network (benchmark)"', 'number = "BENCH-1"',
-           'revision = "A"', "date = 2026-12-01"]  # fmt: skip
+    out = [
+        "schema = 1",
+        "[document]",
+        'title = "Generated 200-node network (benchmark)"',
+        'number = "BENCH-1"',
+        'revision = "A"',
+        "date = 2026-12-01",
+    ]
     names = ["gnd"] + [f"n{i}" for i in range(1, nodes)]
     count = 0
 
@@ -45,8 +51,13 @@ def network(nodes: int = 200, elements: int = 400, seed: int = 5) -> str:
     add("voltage_source", "n1", "gnd", "24 V", 'rating = { current = "5 A" }')
     add("current_source", "gnd", "n2", "10 mA")
     for i in range(1, nodes):  # a spanning tree keeps it connected
-        add("resistor", names[i], names[rng.randrange(0, i)], f"{rng.randint(10, 9999)} ohm",
-            'rating = { power = "0.25 W" }')  # fmt: skip
+        add(
+            "resistor",
+            names[i],
+            names[rng.randrange(0, i)],
+            f"{rng.randint(10, 9999)} ohm",
+            'rating = { power = "0.25 W" }',
+        )
     while count < elements:
         a, b = rng.sample(names, 2)
         add("resistor", a, b, f"{rng.randint(10, 9999)} ohm", 'rating = { power = "0.25 W" }')

@@ -80,8 +80,10 @@ def main() -> None:
     print(
         f"grid 100x100 wall: floor {fw:.2f} s, calcdoc solve --json {ow:.2f} s, ratio {ow / fw:.2f}"
     )
-    print(f"grid 100x100 CPU:  floor {fc:.2f} s, calcdoc solve --json {oc:.2f} s, ratio {oc / fc:.2f} "
-          "(target <= 1.5)")  # fmt: skip
+    print(
+        f"grid 100x100 CPU:  floor {fc:.2f} s, calcdoc solve --json {oc:.2f} s, ratio {oc / fc:.2f} "
+        "(target <= 1.5)"
+    )
     print(f"load average: {os.getloadavg()[0]:.1f}")
     help_t = min(peak_of([*calcdoc, "--help"])[0] for _ in range(args.runs))
     print(f"calcdoc --help: {help_t:.3f} s (target < 0.5)")

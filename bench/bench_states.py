@@ -32,20 +32,36 @@ from calcdoc.pipeline import solve_case  # noqa: E402
 
 def ladder(size: int) -> str:
     lines = [
-        "[elements.V1]", 'type = "voltage_source"', 'nodes = ["n1", "gnd"]', 'value = "24 V"',
-    ]  # fmt: skip
+        "[elements.V1]",
+        'type = "voltage_source"',
+        'nodes = ["n1", "gnd"]',
+        'value = "24 V"',
+    ]
     for k in range(1, size + 1):
         vf = 0.3 + 3.0 * ((k * 37) % 101) / 100
         a, b = (f"n{k}", "gnd") if k % 7 else ("gnd", f"n{k}")
-        lines += [f"[elements.D{k}]", 'type = "diode"', f'nodes = ["{a}", "{b}"]',
-                  f'forward_voltage = "{vf:.3f} V"', 'resistance = "500 ohm"']  # fmt: skip
+        lines += [
+            f"[elements.D{k}]",
+            'type = "diode"',
+            f'nodes = ["{a}", "{b}"]',
+            f'forward_voltage = "{vf:.3f} V"',
+            'resistance = "500 ohm"',
+        ]
         if k % 5 == 0:
             lines.append(f'breakdown_voltage = "{2 + (k % 11):.1f} V"')
-        lines += [f"[elements.Rs{k}]", 'type = "resistor"', f'nodes = ["n{k}", "gnd"]',
-                  'value = "20 kohm"']  # fmt: skip
+        lines += [
+            f"[elements.Rs{k}]",
+            'type = "resistor"',
+            f'nodes = ["n{k}", "gnd"]',
+            'value = "20 kohm"',
+        ]
         if k < size:
-            lines += [f"[elements.R{k}]", 'type = "resistor"', f'nodes = ["n{k}", "n{k + 1}"]',
-                      'value = "0.5 ohm"']  # fmt: skip
+            lines += [
+                f"[elements.R{k}]",
+                'type = "resistor"',
+                f'nodes = ["n{k}", "n{k + 1}"]',
+                'value = "0.5 ohm"',
+            ]
     return "\n".join(lines) + "\n"
 
 
@@ -67,8 +83,10 @@ def main() -> None:
     states = Counter(s for s, ty in zip(found.states, net.types, strict=True) if ty == "diode")
     print(f"{args.size}-diode ladder: {found.pieces} conducting pieces searched")
     print(f"  method: {found.method}; pivots: {found.iterations}")
-    print(f"  state search: {search * 1000:.1f} ms; whole case: {case * 1000:.1f} ms "
-          f"({result.solution.method}, {len(result.solution.unknowns)} unknowns)")  # fmt: skip
+    print(
+        f"  state search: {search * 1000:.1f} ms; whole case: {case * 1000:.1f} ms "
+        f"({result.solution.method}, {len(result.solution.unknowns)} unknowns)"
+    )
     print("  states: " + ", ".join(f"{n} {s}" for s, n in sorted(states.items())))
     print(f"  every device's test holds: {result.states.holds}")
 

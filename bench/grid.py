@@ -20,11 +20,19 @@ def grid_project(n: int) -> str:
     for i in range(n):
         for j in range(n):
             if j + 1 < n:
-                out += [f"[elements.h{i}_{j}]", 'type = "resistor"',
-                        f'nodes = ["n{i}_{j}", "n{i}_{j + 1}"]', 'value = "1 kohm"']  # fmt: skip
+                out += [
+                    f"[elements.h{i}_{j}]",
+                    'type = "resistor"',
+                    f'nodes = ["n{i}_{j}", "n{i}_{j + 1}"]',
+                    'value = "1 kohm"',
+                ]
             if i + 1 < n:
-                out += [f"[elements.v{i}_{j}]", 'type = "resistor"',
-                        f'nodes = ["n{i}_{j}", "n{i + 1}_{j}"]', 'value = "1 kohm"']  # fmt: skip
+                out += [
+                    f"[elements.v{i}_{j}]",
+                    'type = "resistor"',
+                    f'nodes = ["n{i}_{j}", "n{i + 1}_{j}"]',
+                    'value = "1 kohm"',
+                ]
     return "\n".join(out) + "\n"
 
 

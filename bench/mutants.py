@@ -53,8 +53,13 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
 
-ENGINE_TESTS = ["tests/mna", "tests/verify", "tests/analysis", "tests/test_golden.py",
-                "tests/test_engine_basics.py"]  # fmt: skip
+ENGINE_TESTS = [
+    "tests/mna",
+    "tests/verify",
+    "tests/analysis",
+    "tests/test_golden.py",
+    "tests/test_engine_basics.py",
+]
 
 
 def _tests(first: str) -> list[str]:
@@ -76,10 +81,17 @@ TARGETS = {
 }
 
 SWAPS = {
-    ast.Add: ("+", "-"), ast.Sub: ("-", "+"), ast.Mult: ("*", "/"), ast.Div: ("/", "*"),
-    ast.Lt: ("<", "<="), ast.LtE: ("<=", "<"), ast.Gt: (">", ">="), ast.GtE: (">=", ">"),
-    ast.Eq: ("==", "!="), ast.NotEq: ("!=", "=="),
-}  # fmt: skip
+    ast.Add: ("+", "-"),
+    ast.Sub: ("-", "+"),
+    ast.Mult: ("*", "/"),
+    ast.Div: ("/", "*"),
+    ast.Lt: ("<", "<="),
+    ast.LtE: ("<=", "<"),
+    ast.Gt: (">", ">="),
+    ast.GtE: (">=", ">"),
+    ast.Eq: ("==", "!="),
+    ast.NotEq: ("!=", "=="),
+}
 
 
 @dataclass(frozen=True)
@@ -175,8 +187,11 @@ def mutants(path: str) -> list[Mutant]:
                 left = right
         elif isinstance(node, ast.BoolOp) and len(node.values) >= 2:
             word, other = ("and", "or") if isinstance(node.op, ast.And) else ("or", "and")
-            between_text = text[at(node.values[0].end_lineno, node.values[0].end_col_offset) :
-                                at(node.values[1].lineno, node.values[1].col_offset)]  # fmt: skip
+            between_text = text[
+                at(node.values[0].end_lineno, node.values[0].end_col_offset) : at(
+                    node.values[1].lineno, node.values[1].col_offset
+                )
+            ]
             k = between_text.find(word)
             if k >= 0:
                 lo = at(node.values[0].end_lineno, node.values[0].end_col_offset) + k
@@ -214,10 +229,24 @@ def run(copy: Path, m: Mutant, tests: list[str], timeout: float) -> bool:
     env = dict(os.environ, PYTHONPATH=str(copy), PYTHONDONTWRITEBYTECODE="1")
     try:
         proc = subprocess.run(
-            [sys.executable, "-m", "pytest", "-x", "-q", "-p", "no:cacheprovider",
-             "--no-header", "-W", "ignore::DeprecationWarning", *tests],
-            cwd=copy, env=env, capture_output=True, timeout=timeout,
-        )  # fmt: skip
+            [
+                sys.executable,
+                "-m",
+                "pytest",
+                "-x",
+                "-q",
+                "-p",
+                "no:cacheprovider",
+                "--no-header",
+                "-W",
+                "ignore::DeprecationWarning",
+                *tests,
+            ],
+            cwd=copy,
+            env=env,
+            capture_output=True,
+            timeout=timeout,
+        )
         return proc.returncode != 0
     except subprocess.TimeoutExpired:
         return True
@@ -232,8 +261,11 @@ def main() -> int:
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--timeout", type=float, default=300)
     ap.add_argument("--list", action="store_true", help="list every mutant and stop")
-    ap.add_argument("--no-constants", action="store_true",
-                    help="skip the tuning-constant mutants (no raw figure)")  # fmt: skip
+    ap.add_argument(
+        "--no-constants",
+        action="store_true",
+        help="skip the tuning-constant mutants (no raw figure)",
+    )
     args = ap.parse_args()
     if args.list:
         for path in args.modules:
@@ -264,13 +296,17 @@ def main() -> int:
                 totals[label][0] += k
                 totals[label][1] += len(group)
             (k, n), (kc, nc) = counts["scored"], counts["constant"]
-            print(f"{path}: {k}/{n} killed ({len(scored)} possible); tuning constants "
-                  f"{kc}/{nc}; raw {k + kc}/{n + nc} in {time.perf_counter() - t0:.0f} s",
-                  flush=True)  # fmt: skip
+            print(
+                f"{path}: {k}/{n} killed ({len(scored)} possible); tuning constants "
+                f"{kc}/{nc}; raw {k + kc}/{n + nc} in {time.perf_counter() - t0:.0f} s",
+                flush=True,
+            )
         (k, n), (kc, nc) = totals["scored"], totals["constant"]
         print(f"\nadjusted: killed {k} of {n} mutants: {100 * k / max(n, 1):.1f} %")
-        print(f"raw (tuning constants counted in): killed {k + kc} of {n + nc}: "
-              f"{100 * (k + kc) / max(n + nc, 1):.1f} %")  # fmt: skip
+        print(
+            f"raw (tuning constants counted in): killed {k + kc} of {n + nc}: "
+            f"{100 * (k + kc) / max(n + nc, 1):.1f} %"
+        )
         for m in survivors:
             print("  survived:", ("(constant) " if m.constant else "") + m.describe())
     return 0

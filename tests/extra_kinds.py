@@ -28,27 +28,53 @@ from calcdoc.model.quantities import NONE, OHM, VOLT
 
 KINDS = (
     ElementType(
-        "thevenin", "source behind a resistance", ("plus", "minus"),
-        (NumberKey("value", VOLT, "V", words="source voltage"),
-         NumberKey("resistance", OHM, "Ω", "R", required=False, sign="nonnegative",
-                   words="source resistance")),
+        "thevenin",
+        "source behind a resistance",
+        ("plus", "minus"),
+        (
+            NumberKey("value", VOLT, "V", words="source voltage"),
+            NumberKey(
+                "resistance",
+                OHM,
+                "Ω",
+                "R",
+                required=False,
+                sign="nonnegative",
+                words="source resistance",
+            ),
+        ),
         {"": Law(v=ONE, i=Coef(-1, "resistance"), const=Coef(1, "value"), text="V = E + R·I")},
     ),
     ElementType(
-        "contact", "contact", ("a", "b"),
+        "contact",
+        "contact",
+        ("a", "b"),
         (NumberKey("value", OHM, "Ω", sign="positive", words="contact resistance"),),
-        {"closed": Law(v=ONE, i=Coef(-1, "value"), text="V = R·I"),
-         "open": Law(i=ONE, text="I = 0")},
+        {
+            "closed": Law(v=ONE, i=Coef(-1, "value"), text="V = R·I"),
+            "open": Law(i=ONE, text="I = 0"),
+        },
         states=("closed", "open"),
     ),
     ElementType(
-        "winding", "winding", ("a", "b"),
-        (NumberKey("value", NONE, "", sign="positive", words="turns"),
-         NumberKey("resistance", OHM, "Ω", "R", required=False, sign="nonnegative",
-                   words="winding resistance")),
+        "winding",
+        "winding",
+        ("a", "b"),
+        (
+            NumberKey("value", NONE, "", sign="positive", words="turns"),
+            NumberKey(
+                "resistance",
+                OHM,
+                "Ω",
+                "R",
+                required=False,
+                sign="nonnegative",
+                words="winding resistance",
+            ),
+        ),
         {"": Law(v=ONE, i=Coef(-1, "resistance"), text="V = R·I")},
     ),
-)  # fmt: skip
+)
 
 
 @contextmanager

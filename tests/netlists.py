@@ -20,9 +20,18 @@ def project_text(elements, *, reference="gnd", extra=""):
     return "\n".join(lines) + "\n" + extra
 
 
-UNIT = {"resistor": "ohm", "voltage_source": "V", "current_source": "A", "vcvs": "",
-        "vccs": "S", "ccvs": "ohm", "cccs": "", "thevenin": "V", "contact": "ohm",
-        "winding": ""}  # fmt: skip
+UNIT = {
+    "resistor": "ohm",
+    "voltage_source": "V",
+    "current_source": "A",
+    "vcvs": "",
+    "vccs": "S",
+    "ccvs": "ohm",
+    "cccs": "",
+    "thevenin": "V",
+    "contact": "ohm",
+    "winding": "",
+}
 
 
 def rows_text(rows) -> str:
@@ -32,8 +41,12 @@ def rows_text(rows) -> str:
         key = "gain" if etype in ("vcvs", "vccs", "ccvs", "cccs") else "value"
         number = p.value if p.value.denominator == 1 else float(p.value)  # exact decimals here
         value = text if text is not None else f"{number} {UNIT[etype]}".strip()
-        lines += [f"[elements.{p.name}]", f'type = "{etype}"', f'nodes = ["{p.a}", "{p.b}"]',
-                  f'{key} = "{value}"']  # fmt: skip
+        lines += [
+            f"[elements.{p.name}]",
+            f'type = "{etype}"',
+            f'nodes = ["{p.a}", "{p.b}"]',
+            f'{key} = "{value}"',
+        ]
         if isinstance(p.control, tuple):
             lines.append(f'control = ["{p.control[0]}", "{p.control[1]}"]')
         elif p.control:

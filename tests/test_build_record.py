@@ -78,11 +78,19 @@ def _key(tmp_path: Path) -> tuple[Path, Path]:
     name = x509.Name([x509.NameAttribute(NameOID.COMMON_NAME, "C. Checker")])
     start = dt.datetime(2026, 1, 1, tzinfo=dt.timezone.utc)
     cert = (
-        x509.CertificateBuilder().subject_name(name).issuer_name(name).public_key(key.public_key())
-        .serial_number(7).not_valid_before(start).not_valid_after(start + dt.timedelta(days=3650))
-        .add_extension(x509.KeyUsage(True, True, False, False, False, False, False, False, False), critical=True)
+        x509.CertificateBuilder()
+        .subject_name(name)
+        .issuer_name(name)
+        .public_key(key.public_key())
+        .serial_number(7)
+        .not_valid_before(start)
+        .not_valid_after(start + dt.timedelta(days=3650))
+        .add_extension(
+            x509.KeyUsage(True, True, False, False, False, False, False, False, False),
+            critical=True,
+        )
         .sign(key, hashes.SHA256())
-    )  # fmt: skip
+    )
     p12 = tmp_path / "key.p12"
     p12.write_bytes(
         pkcs12.serialize_key_and_certificates(

@@ -18,13 +18,25 @@ from calcdoc.model.elements import ONE, Coef, ElementType, Law, NumberKey, regis
 from calcdoc.model.quantities import OHM, VOLT
 
 CELL = ElementType(
-    "test_cell", "cell with internal resistance", ("plus", "minus"),
-    (NumberKey("value", VOLT, "V", words="open-circuit voltage"),
-     NumberKey("internal", OHM, "Ω", "r", required=False, sign="nonnegative",
-               words="internal resistance")),
+    "test_cell",
+    "cell with internal resistance",
+    ("plus", "minus"),
+    (
+        NumberKey("value", VOLT, "V", words="open-circuit voltage"),
+        NumberKey(
+            "internal",
+            OHM,
+            "Ω",
+            "r",
+            required=False,
+            sign="nonnegative",
+            words="internal resistance",
+        ),
+    ),
     {"": Law(v=ONE, i=Coef(-1, "internal"), const=Coef(1, "value"), text="V = E + r·I")},
-    ratings=("current", "power"), supply=True,
-)  # fmt: skip
+    ratings=("current", "power"),
+    supply=True,
+)
 
 TEXT = """
 [document]
@@ -70,8 +82,9 @@ def test_registered_type_is_solved_verified_differentiated_and_rendered(cell):
     assert {c.id for c in case.checks} == {"B1.current", "RL.power"}
     # Sensitivities, closed form: V(p) = E·R/(R + r), so S_E = 1 and S_R = r/(R + r);
     # P(RL) = E²·R/(R + r)², so S_E = 2 and S_R = (r − R)/(R + r).
-    sens = {s.output: dict((n, x) for n, _, x in s.ranked)
-            for s in results.extra["sensitivity"].items}  # fmt: skip
+    sens = {
+        s.output: dict((n, x) for n, _, x in s.ranked) for s in results.extra["sensitivity"].items
+    }
     assert sens["p"]["B1"] == pytest.approx(1.0, rel=1e-9)
     assert sens["p"]["RL"] == pytest.approx(0.5 / 6, rel=1e-9)
     assert sens["RL.power"]["B1"] == pytest.approx(2.0, rel=1e-9)

@@ -25,8 +25,13 @@ except ImportError:  # Python 3.10
 CASES = sorted((Path(__file__).parent / "cases").glob("*.toml"))
 CASES = [c for c in CASES if not c.name.endswith(".expected.toml")]
 
-_OPS = {ast.Add: operator.add, ast.Sub: operator.sub, ast.Mult: operator.mul,
-        ast.Div: operator.truediv, ast.Pow: operator.pow}  # fmt: skip
+_OPS = {
+    ast.Add: operator.add,
+    ast.Sub: operator.sub,
+    ast.Mult: operator.mul,
+    ast.Div: operator.truediv,
+    ast.Pow: operator.pow,
+}
 
 
 def hand(text: str) -> float:

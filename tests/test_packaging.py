@@ -24,8 +24,14 @@ DIVIDER = ROOT / "tests" / "cases" / "divider.toml"
 
 def calcdoc(*args, cwd: Path, pythonpath: Path = ROOT) -> subprocess.CompletedProcess:
     env = dict(os.environ, PYTHONPATH=str(pythonpath))
-    return subprocess.run([sys.executable, "-m", "calcdoc", *map(str, args)], cwd=cwd, env=env,
-                          capture_output=True, text=True, timeout=300)  # fmt: skip
+    return subprocess.run(
+        [sys.executable, "-m", "calcdoc", *map(str, args)],
+        cwd=cwd,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=300,
+    )
 
 
 def test_every_package_and_the_templates_are_listed():
@@ -36,11 +42,14 @@ def test_every_package_and_the_templates_are_listed():
     data = PYPROJECT["tool"]["setuptools"]["package-data"]
     assert data["calcdoc.templates"] == ["*.toml"]
     for patterns in data.values():  # every pattern names files that exist
-        assert all(list(ROOT.glob(f"calcdoc/{p}")) or list(ROOT.glob(f"templates/{p}"))
-                   for p in patterns)  # fmt: skip
+        assert all(
+            list(ROOT.glob(f"calcdoc/{p}")) or list(ROOT.glob(f"templates/{p}")) for p in patterns
+        )
     assert {p.name for p in (ROOT / "templates").glob("*.toml")} >= {
-        "standard.toml", "compact.toml", "starter.toml"
-    }  # fmt: skip
+        "standard.toml",
+        "compact.toml",
+        "starter.toml",
+    }
 
 
 def test_styles_by_name_from_an_empty_folder(tmp_path):
@@ -56,8 +65,9 @@ def test_styles_by_name_from_an_empty_folder(tmp_path):
 def test_missing_styles_are_an_error_not_a_silent_default(tmp_path):
     # an installation whose styles went missing: only the calcdoc package, no templates
     broken = tmp_path / "site"
-    shutil.copytree(ROOT / "calcdoc", broken / "calcdoc",
-                    ignore=shutil.ignore_patterns("__pycache__"))  # fmt: skip
+    shutil.copytree(
+        ROOT / "calcdoc", broken / "calcdoc", ignore=shutil.ignore_patterns("__pycache__")
+    )
     work = tmp_path / "work"
     work.mkdir()
     shutil.copy(DIVIDER, work / "p.toml")
@@ -85,6 +95,7 @@ def test_version_is_quick_and_imports_no_numerical_library():
         "print(sorted(m for m in ('numpy', 'scipy', 'sympy', 'reportlab') if m in sys.modules))"
     )
     env = dict(os.environ, PYTHONPATH=str(ROOT))
-    out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True,
-                         check=True)  # fmt: skip
+    out = subprocess.run(
+        [sys.executable, "-c", code], env=env, capture_output=True, text=True, check=True
+    )
     assert out.stdout.strip() == "[]"

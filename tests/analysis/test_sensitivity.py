@@ -64,11 +64,16 @@ def test_element_outputs_by_the_adjoint():
 def test_default_outputs():
     # "Outputs with a limit (node windows, rated powers); else every node
     # voltage (at most 12)": windows first, each output once.
-    p = calcdoc.loads(project_text(
-        [DIVIDER[0], ("R1", "resistor", ("in", "out"), "3 kohm", {"rating": '{ power = "1 W" }'}),
-         DIVIDER[2]],
-        extra='[limits.nodes.out]\nmax = "3 V"\n[limits.nodes.in]\nmin = "9 V"\n',
-    ))  # fmt: skip
+    p = calcdoc.loads(
+        project_text(
+            [
+                DIVIDER[0],
+                ("R1", "resistor", ("in", "out"), "3 kohm", {"rating": '{ power = "1 W" }'}),
+                DIVIDER[2],
+            ],
+            extra='[limits.nodes.out]\nmax = "3 V"\n[limits.nodes.in]\nmin = "9 V"\n',
+        )
+    )
     assert default_outputs(p, solve_case(p)) == ("out", "in", "R1.power")
     chain = [("V1", "voltage_source", ("n1", "gnd"), "1 V")]
     chain += [(f"R{k}", "resistor", (f"n{k}", f"n{k + 1}"), "1 kohm") for k in range(1, 14)]
@@ -157,11 +162,16 @@ def test_outputs_given_replace_the_defaults():
 def test_micro_amp_outputs_of_megohm_resistors():
     # 10 V over 3 MΩ + 1 MΩ: I = 2.5 µA, ∂I/∂R1 = −V/(R1 + R2)² = −6.25e-13 A/Ω, tiny
     # in SI units but a normalised sensitivity of −0.75 (closed form).
-    p = calcdoc.loads(project_text(
-        [DIVIDER[0], ("R1", "resistor", ("in", "out"), "3 Mohm"),
-         ("R2", "resistor", ("out", "gnd"), "1 Mohm")],
-        extra='[analysis]\nsensitivity = ["R1.current"]\n',
-    ))  # fmt: skip
+    p = calcdoc.loads(
+        project_text(
+            [
+                DIVIDER[0],
+                ("R1", "resistor", ("in", "out"), "3 Mohm"),
+                ("R2", "resistor", ("out", "gnd"), "1 Mohm"),
+            ],
+            extra='[analysis]\nsensitivity = ["R1.current"]\n',
+        )
+    )
     s = items(p)["R1.current"]
     assert dict((n, v) for n, _, v in s.ranked) == pytest.approx(
         {"V1": 1.0, "R1": -0.75, "R2": -0.25}, rel=1e-9

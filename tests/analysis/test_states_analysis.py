@@ -19,9 +19,8 @@ ELEMENTS = [
     ("V1", "voltage_source", ("in", "gnd"), {"value": "5 V"}),
     ("R1", "resistor", ("in", "a"), {"value": "6.2 kohm", "tolerance": "5 %"}),
     ("R2", "resistor", ("a", "gnd"), {"value": "1 kohm", "tolerance": "5 %"}),
-    ("D1", "diode", ("a", "gnd"), {"forward_voltage": "0.7 V",
-                                    "rating": {"current": "1 mA"}}),
-]  # fmt: skip
+    ("D1", "diode", ("a", "gnd"), {"forward_voltage": "0.7 V", "rating": {"current": "1 mA"}}),
+]
 
 
 def results(extra: str):

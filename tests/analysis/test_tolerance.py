@@ -167,7 +167,9 @@ def test_controlled_source_extremes_are_proved(monkeypatch, at_the_size_limit):
 
 def test_controlled_voltage_source_extremes_are_proved():
     # A VCVS buffer: V(o) = µ·V(in)·R2/(R1 + R2), µ = 3 ± 10 % (hand solution).
-    t = result(divider(third="""
+    t = result(
+        divider(
+            third="""
 [elements.E1]
 type = "vcvs"
 nodes = ["o", "gnd"]
@@ -178,7 +180,9 @@ tolerance = "10 %"
 type = "resistor"
 nodes = ["o", "gnd"]
 value = "1 kohm"
-"""))  # fmt: skip
+"""
+        )
+    )
     o = t.nodes["o"]
     assert o.how == "vertices, proved"
     assert o.max == pytest.approx(3.3 * vout(2970, 1010), rel=1e-12, abs=0)
@@ -192,13 +196,17 @@ def test_vertices_picked_by_gradient_signs_above_the_limit(monkeypatch):
     # current (0, 0, −), the source current (+, +, +) and their opposites; a
     # zero component counts as positive. Nothing is proved on a partial set.
     monkeypatch.setattr(tolerance, "EXACT_VERTEX_LIMIT", 2)
-    t = result(divider(third="""
+    t = result(
+        divider(
+            third="""
 [elements.R3]
 type = "resistor"
 nodes = ["in", "gnd"]
 value = "2 kohm"
 tolerance = "1 %"
-"""))  # fmt: skip
+"""
+        )
+    )
     assert t.solved == 8
     assert t.note == (
         "8 vertices picked by the signs of each output's gradient (3 toleranced quantities: "
@@ -206,9 +214,7 @@ tolerance = "1 %"
     )
     out = t.nodes["out"]
     assert out.how == "vertices and local search"
-    assert (out.min, out.max) == pytest.approx(
-        (vout(3030, 990), vout(2970, 1010)), rel=1e-12
-    )  # fmt: skip
+    assert (out.min, out.max) == pytest.approx((vout(3030, 990), vout(2970, 1010)), rel=1e-12)
     # with the limit at the number of quantities every vertex is solved
     monkeypatch.setattr(tolerance, "EXACT_VERTEX_LIMIT", 3)
     assert result(divider()).note == "all 4 vertices of the tolerance box solved"
@@ -269,7 +275,8 @@ def test_monte_carlo_samples_recomputed(monkeypatch):
 
 def test_histogram_of_a_small_variation_on_the_first_node():
     # 1 mA into 1 kΩ ± 1 %: V(a) varies by at most 20 mV, and a is node 1.
-    t = result(calcdoc.loads("""
+    t = result(
+        calcdoc.loads("""
 [elements.I1]
 type = "current_source"
 nodes = ["gnd", "a"]
@@ -283,7 +290,8 @@ tolerance = "1 %"
 tolerance = "montecarlo"
 samples = 50
 seed = 2
-"""))  # fmt: skip
+""")
+    )
     assert t.histogram is not None and t.histogram[0] == "V(a)"
     assert sum(t.histogram[2]) == 50
 
@@ -295,7 +303,8 @@ def test_truncated_normal_with_an_asymmetric_tolerance():
     from scipy import integrate
     from scipy.stats import truncnorm
 
-    t = result(calcdoc.loads("""
+    t = result(
+        calcdoc.loads("""
 [elements.V1]
 type = "voltage_source"
 nodes = ["in", "gnd"]
@@ -310,7 +319,8 @@ tolerance = "montecarlo"
 distribution = "normal"
 samples = 20000
 seed = 8
-"""))  # fmt: skip
+""")
+    )
     z = truncnorm(-3, 3)
 
     def current(x):
@@ -335,8 +345,10 @@ def test_tolerance_of_a_circuit_above_the_dense_batch_size():
     lines = ['[elements.V1]\ntype = "voltage_source"\nnodes = ["n0", "gnd"]\nvalue = "10 V"']
     for k in range(70):
         tol = '\ntolerance = "1 %"' if k == 0 else ""
-        lines.append(f'[elements.R{k}]\ntype = "resistor"\nnodes = ["n{k}", "n{k + 1}"]\n'
-                     f'value = "1 kohm"{tol}')  # fmt: skip
+        lines.append(
+            f'[elements.R{k}]\ntype = "resistor"\nnodes = ["n{k}", "n{k + 1}"]\n'
+            f'value = "1 kohm"{tol}'
+        )
     lines.append('[elements.RL]\ntype = "resistor"\nnodes = ["n70", "gnd"]\nvalue = "1 kohm"')
     lines.append('[analysis]\ntolerance = "extreme"')
     t = result(calcdoc.loads("\n".join(lines) + "\n"))
@@ -352,7 +364,8 @@ def test_a_current_that_cancels_inside_the_box():
     # 1 mA into m; F1 takes β·1 mA back out, β = 1 ± 10 %: R1 carries
     # (1 − β)·1 mA, so its dissipation 1 kΩ·(1 − β)²·(1 mA)² is 10 µW at either
     # vertex and zero inside, at β = 1 (hand solution).
-    t = result(calcdoc.loads("""
+    t = result(
+        calcdoc.loads("""
 [elements.I1]
 type = "current_source"
 nodes = ["gnd", "m"]
@@ -369,7 +382,8 @@ nodes = ["m", "gnd"]
 value = "1 kohm"
 [analysis]
 tolerance = "extreme"
-"""))  # fmt: skip
+""")
+    )
     p = t.elements["R1"]["power"]
     assert p.max == pytest.approx(1e-5, rel=1e-12, abs=0) and p.max_where == "vertex"
     assert p.min_where == "inside" and abs(p.min) <= 1e-20

@@ -79,9 +79,12 @@ def divider_power(rs, r1, r2):
 
 @pytest.mark.parametrize(
     ("rs", "r1", "r2", "tols"),
-    [(1000, 2200, 2200, (0.3, 0.3, 0.3)), (500, 800, 3300, (0.5, 0.2, 0.4)),
-     (1000, 900, 10000, (0.2, 0.25, 0.1))],
-)  # fmt: skip
+    [
+        (1000, 2200, 2200, (0.3, 0.3, 0.3)),
+        (500, 800, 3300, (0.5, 0.2, 0.4)),
+        (1000, 900, 10000, (0.2, 0.25, 0.1)),
+    ],
+)
 def test_power_extremes_against_a_grid_search(rs, r1, r2, tols):
     p = calcdoc.loads(f"""
 [elements.V1]
@@ -115,8 +118,12 @@ tolerance = "extreme"
     at = [1 + d for d in ex.max_at]
     assert ex.max == pytest.approx(divider_power(rs * at[0], r1 * at[1], r2 * at[2]), rel=1e-9)
     fine = [np.linspace(1 - t, 1 + t, 401) for t in tols]
-    best = max(divider_power(rs * a, r1 * b, r2 * c) for a in fine[0] for b in fine[1][::8]
-               for c in fine[2][::8])  # fmt: skip
+    best = max(
+        divider_power(rs * a, r1 * b, r2 * c)
+        for a in fine[0]
+        for b in fine[1][::8]
+        for c in fine[2][::8]
+    )
     assert ex.max <= best * (1 + 1e-3)
 
 

@@ -20,15 +20,23 @@ def calcdoc_cmd(*args: str | Path) -> list[str]:
     return [sys.executable, "-m", "calcdoc", *map(str, args)]
 
 
-def run_calcdoc(*args: str | Path, cwd: Path | None = None, prefix: list[str] | None = None,
-                timeout: float = 300) -> subprocess.CompletedProcess:  # fmt: skip
+def run_calcdoc(
+    *args: str | Path,
+    cwd: Path | None = None,
+    prefix: list[str] | None = None,
+    timeout: float = 300,
+) -> subprocess.CompletedProcess:
     """``calcdoc ARGS`` in a subprocess (this checkout on PYTHONPATH)."""
     env = dict(os.environ)
     env["PYTHONPATH"] = os.pathsep.join(filter(None, [str(ROOT), env.get("PYTHONPATH")]))
     return subprocess.run(
-        [*(prefix or []), *calcdoc_cmd(*args)], cwd=cwd, env=env, capture_output=True, text=True,
+        [*(prefix or []), *calcdoc_cmd(*args)],
+        cwd=cwd,
+        env=env,
+        capture_output=True,
+        text=True,
         timeout=timeout,
-    )  # fmt: skip
+    )
 
 
 def partial_files(folder: Path) -> list[str]:
@@ -66,8 +74,13 @@ def small_disk(tmp_path: Path):
         env = dict(os.environ)
         env["PYTHONPATH"] = os.pathsep.join(filter(None, [str(ROOT), env.get("PYTHONPATH")]))
         shell = f"mount -t tmpfs -o size={kib}k tmpfs {disk} && cd {disk} && {script}"
-        proc = subprocess.run(["unshare", *userns, "-m", "sh", "-c", shell], env=env,
-                              capture_output=True, text=True, timeout=300)  # fmt: skip
+        proc = subprocess.run(
+            ["unshare", *userns, "-m", "sh", "-c", shell],
+            env=env,
+            capture_output=True,
+            text=True,
+            timeout=300,
+        )
         if "mount:" in proc.stderr or "unshare:" in proc.stderr:
             pytest.skip(f"cannot mount a private tmpfs here: {proc.stderr.strip()}")
         return proc

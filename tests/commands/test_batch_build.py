@@ -106,8 +106,10 @@ def test_register_lists_every_record(demo_set):
             continue
         doc = tomli.loads(project.read_text(encoding="utf-8"))["document"]
         assert (row["document"], row["revision"], row["title"]) == (
-            doc["number"], doc["revision"], doc["title"]
-        )  # fmt: skip
+            doc["number"],
+            doc["revision"],
+            doc["title"],
+        )
         package = package_of(project)
         assert row["package"] == package.name and row["package_sha256"] == sha(package)
         _, results = embedded(package)
@@ -230,7 +232,7 @@ def test_changed_skips_unchanged_and_rebuilds_the_rest(tmp_path):
     text = text.replace(
         "[signoff]",
         '[[document.history]]\nrevision = "C"\ndate = 2026-12-01\ndescription = "Larger load resistor"\n\n[signoff]',
-    )  # fmt: skip
+    )
     supply.write_text(text)
     time.sleep(0.01)
     proc = run_calcdoc("build", tmp_path, "--changed")
@@ -265,8 +267,9 @@ def test_changed_rebuilds_a_package_of_another_calcdoc_version(tmp_path):
     work.mkdir()
     shutil.copy(DIVIDER, work / "divider.toml")
     env = dict(os.environ, PYTHONPATH=str(other))
-    subprocess.run(calcdoc_cmd("build", work / "divider.toml", "-q"), env=env, check=True,
-                   cwd=tmp_path)  # fmt: skip
+    subprocess.run(
+        calcdoc_cmd("build", work / "divider.toml", "-q"), env=env, check=True, cwd=tmp_path
+    )
     package = next(work.glob("*.pdf"))
     assert embedded(package)[1]["tool"]["version"] == "0.0.1"
     proc = run_calcdoc("build", work / "divider.toml", "--changed")
@@ -286,8 +289,13 @@ def test_progress_display_on_a_terminal(tmp_path):
         shutil.copy(demo, tmp_path / demo.name)
     master, slave = pty.openpty()
     env = dict(os.environ, PYTHONPATH=str(ROOT))
-    proc = subprocess.Popen(calcdoc_cmd("build", tmp_path, "-j", "2"), env=env, stdin=slave,
-                            stdout=subprocess.PIPE, stderr=slave)  # fmt: skip
+    proc = subprocess.Popen(
+        calcdoc_cmd("build", tmp_path, "-j", "2"),
+        env=env,
+        stdin=slave,
+        stdout=subprocess.PIPE,
+        stderr=slave,
+    )
     os.close(slave)
     seen = b""
     while True:
@@ -333,8 +341,13 @@ def test_stopping_a_set_stops_its_workers_and_leaves_no_partial_file(tmp_path, s
     for demo in DEMOS:
         shutil.copy(demo, tmp_path / demo.name)
     env = dict(os.environ, PYTHONPATH=str(ROOT))
-    proc = subprocess.Popen(calcdoc_cmd("build", tmp_path, "-j", "2", "-q"), env=env,
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)  # fmt: skip
+    proc = subprocess.Popen(
+        calcdoc_cmd("build", tmp_path, "-j", "2", "-q"),
+        env=env,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
     workers: set[int] = set()
     deadline = time.monotonic() + 60
     while len(workers) < 2 and time.monotonic() < deadline:  # wait for the pool to start

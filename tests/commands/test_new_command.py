@@ -26,15 +26,28 @@ OTHER_KEYS = {
     "parameters.NAME": ("value", "tolerance", "description"),
     "elements.NAME.tolerance": ("minus", "plus"),
     "elements.NAME.derating": ("knee", "zero"),
-    "limits": ("power_fraction", "voltage_fraction", "current_fraction", "ambient", "derating",
-               "nodes"),
+    "limits": (
+        "power_fraction",
+        "voltage_fraction",
+        "current_fraction",
+        "ambient",
+        "derating",
+        "nodes",
+    ),
     "limits.nodes.NAME": ("min", "max"),
     "cases": ("name", "set", "description"),
-    "analysis": ("tolerance", "samples", "seed", "distribution", "sensitivity", "temperature",
-                 "reference_temperature"),
+    "analysis": (
+        "tolerance",
+        "samples",
+        "seed",
+        "distribution",
+        "sensitivity",
+        "temperature",
+        "reference_temperature",
+    ),
     "sweeps": ("name", "target", "from", "to", "points", "scale", "outputs"),
     "report": ("template", "paper", "significant_figures", "conclusion"),
-}  # fmt: skip
+}
 
 
 def test_starter_names_every_key_set_or_commented():
@@ -44,9 +57,10 @@ def test_starter_names_every_key_set_or_commented():
     # a key is present as `key = ...` (or `[key]`, `[[key]]`, `[elements.X]`), possibly
     # after a comment mark; inline tables count too: `{ power = ..., voltage = ... }`
     missing = [
-        k for k in sorted(keys)
+        k
+        for k in sorted(keys)
         if not re.search(rf"(^|[\s{{,#\[.])({k})\s*(=|\]|\.)", text, re.MULTILINE)
-    ]  # fmt: skip
+    ]
     assert missing == []
     # and the starter parses as TOML with a schema and a document number
     data = tomli.loads(text)
@@ -108,8 +122,11 @@ def test_new_file_mode_follows_the_umask(tmp_path):
     for umask, mode in ((0o022, 0o644), (0o077, 0o600), (0o002, 0o664)):
         out = tmp_path / f"u{umask:03o}.toml"
         subprocess.run(
-            [sys.executable, "-m", "calcdoc", "new", str(out)], env=env, check=True,
-            capture_output=True, preexec_fn=lambda m=umask: os.umask(m),
-        )  # fmt: skip
+            [sys.executable, "-m", "calcdoc", "new", str(out)],
+            env=env,
+            check=True,
+            capture_output=True,
+            preexec_fn=lambda m=umask: os.umask(m),
+        )
         # what any program creating a file gets: 0666 less the umask (POSIX open(2))
         assert out.stat().st_mode & 0o777 == mode

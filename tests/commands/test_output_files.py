@@ -155,8 +155,11 @@ def _build(project, out, umask: int = 0o022) -> None:
     env = dict(os.environ, PYTHONPATH=str(ROOT))
     subprocess.run(
         [sys.executable, "-m", "calcdoc", "build", str(project), "-o", str(out), "-q"],
-        env=env, check=True, capture_output=True, preexec_fn=lambda: os.umask(umask),
-    )  # fmt: skip
+        env=env,
+        check=True,
+        capture_output=True,
+        preexec_fn=lambda: os.umask(umask),
+    )
 
 
 def test_modes_follow_the_umask_and_are_kept_on_rebuild(project):
@@ -252,8 +255,13 @@ def test_stop_at_each_step_of_the_write(tmp_path, project, point, signame):
     out = tmp_path / "p.pdf"
     out.write_bytes(b"%PDF- the earlier package")
     env = dict(os.environ, PYTHONPATH=str(ROOT))
-    proc = subprocess.run([sys.executable, "-c", STOP_SCRIPT, point, signame, str(project),
-                           str(out)], env=env, capture_output=True, text=True, timeout=120)  # fmt: skip
+    proc = subprocess.run(
+        [sys.executable, "-c", STOP_SCRIPT, point, signame, str(project), str(out)],
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     if signame == "SIGINT":  # Ctrl-C: reported and ended with a failure status
         assert proc.returncode not in (0, 1) and "Traceback" not in proc.stderr
     else:  # ended by the signal, as the sender asked
@@ -276,8 +284,11 @@ def test_terminated_at_many_moments(tmp_path, project):
     outcomes = set()
     for delay in (0.3, 0.7, 1.0, 1.2, 1.4, 1.6, 2.0):
         out.write_bytes(b"earlier")
-        proc = subprocess.Popen([sys.executable, "-m", "calcdoc", "build", str(project), "-o",
-                                 str(out), "-q"], env=env, stderr=subprocess.PIPE)  # fmt: skip
+        proc = subprocess.Popen(
+            [sys.executable, "-m", "calcdoc", "build", str(project), "-o", str(out), "-q"],
+            env=env,
+            stderr=subprocess.PIPE,
+        )
         time.sleep(delay)
         proc.send_signal(signal.SIGTERM)
         proc.communicate(timeout=120)

@@ -36,10 +36,14 @@ ROWS = [
     ("resistor", Part("R5", "resistor", "e", "c", F(1000)), None, {}),
     ("cccs", Part("F1", "cccs", "gnd", "f", F(3), "V1"), None, {}),
     ("resistor", Part("R6", "resistor", "f", "d", F(1000)), None, {}),
-    ("thevenin", Part("T1", "thevenin", "g", "gnd", F(5), r=F(50)), None,
-     {"resistance": '"50 ohm"'}),
+    (
+        "thevenin",
+        Part("T1", "thevenin", "g", "gnd", F(5), r=F(50)),
+        None,
+        {"resistance": '"50 ohm"'},
+    ),
     ("winding", Part("W1", "resistor", "g", "f", F(20)), "1", {"resistance": '"20 ohm"'}),
-]  # fmt: skip
+]
 
 
 def parameter_setter(st):
@@ -84,7 +88,7 @@ def circuit():
         "sparse in chunks of three",
         "sparse in chunks of two",  # SuperLU takes contiguous rows only (fixed in batch.py)
     ],
-)  # fmt: skip
+)
 def test_batches_of_value_sets_against_the_hand_solution(monkeypatch, circuit, path):
     r, st, setter, parts = circuit
     if path == "dense in chunks":
@@ -112,10 +116,12 @@ def test_batches_of_value_sets_against_the_hand_solution(monkeypatch, circuit, p
 
 def test_a_batch_of_one_unknown():
     # 2 mA into 1 kΩ ‖ its value set (Ohm's law): V = I·R for each R.
-    r = solve_case(calcdoc.loads(
-        '[elements.I1]\ntype = "current_source"\nnodes = ["gnd", "a"]\nvalue = "2 mA"\n'
-        '[elements.R1]\ntype = "resistor"\nnodes = ["a", "gnd"]\nvalue = "1 kohm"\n'
-    ))  # fmt: skip
+    r = solve_case(
+        calcdoc.loads(
+            '[elements.I1]\ntype = "current_source"\nnodes = ["gnd", "a"]\nvalue = "2 mA"\n'
+            '[elements.R1]\ntype = "resistor"\nnodes = ["a", "gnd"]\nvalue = "1 kohm"\n'
+        )
+    )
     st = batch.patterns(r.netlist)
     b = batch.solve_batch(st, np.array([[0.002, 1000.0], [0.004, 500.0], [0.001, 3000.0]]))
     np.testing.assert_allclose(b.node_voltage[:, 1], [2.0, 2.0, 3.0], rtol=1e-15)

@@ -49,11 +49,13 @@ def test_unknowns_in_words():
 @pytest.mark.parametrize("second", [("a", "gnd"), ("gnd", "a")])
 def test_parallel_sources_in_either_direction(second):
     value = "5 V" if second == ("a", "gnd") else "-5 V"
-    e = fault([
-        ("V1", "voltage_source", ("a", "gnd"), "5 V"),
-        ("V2", "voltage_source", second, value),
-        ("R1", "resistor", ("a", "gnd"), "1 kohm"),
-    ])  # fmt: skip
+    e = fault(
+        [
+            ("V1", "voltage_source", ("a", "gnd"), "5 V"),
+            ("V2", "voltage_source", second, value),
+            ("R1", "resistor", ("a", "gnd"), "1 kohm"),
+        ]
+    )
     assert e.condition == "voltage loop"
     assert e.culprits == ("V1", "V2")
     assert e.detail == (
@@ -75,14 +77,16 @@ def test_loops_of_three_sources_in_every_orientation(orientation):
     # Three elements that fix their voltage round a, gnd and b: a loop
     # whatever their directions (KVL leaves one of their currents free).
     (p1, p2, p3) = orientation
-    e = fault([
-        ("V1", "voltage_source", p1, "1 V"),
-        ("E1", "vcvs", p2, "2", {"control": '["c", "gnd"]'}),
-        ("H1", "ccvs", p3, "10 ohm", {"control": '"Rc"'}),
-        ("Vc", "voltage_source", ("c", "gnd"), "1 V"),
-        ("Rc", "resistor", ("c", "gnd"), "1 kohm"),
-        ("R1", "resistor", ("a", "b"), "1 kohm"),
-    ])  # fmt: skip
+    e = fault(
+        [
+            ("V1", "voltage_source", p1, "1 V"),
+            ("E1", "vcvs", p2, "2", {"control": '["c", "gnd"]'}),
+            ("H1", "ccvs", p3, "10 ohm", {"control": '"Rc"'}),
+            ("Vc", "voltage_source", ("c", "gnd"), "1 V"),
+            ("Rc", "resistor", ("c", "gnd"), "1 kohm"),
+            ("R1", "resistor", ("a", "b"), "1 kohm"),
+        ]
+    )
     assert e.condition == "voltage loop"
     assert sorted(e.culprits) == ["E1", "H1", "V1"]
     assert e.detail.endswith(
@@ -91,23 +95,27 @@ def test_loops_of_three_sources_in_every_orientation(orientation):
 
 
 def test_loop_of_four_with_a_resistor_path_elsewhere():
-    e = fault([
-        ("V1", "voltage_source", ("a", "gnd"), "1 V"),
-        ("V2", "voltage_source", ("b", "a"), "1 V"),
-        ("V3", "voltage_source", ("b", "c"), "1 V"),
-        ("V4", "voltage_source", ("c", "gnd"), "1 V"),
-        ("R1", "resistor", ("b", "gnd"), "1 kohm"),
-    ])  # fmt: skip
+    e = fault(
+        [
+            ("V1", "voltage_source", ("a", "gnd"), "1 V"),
+            ("V2", "voltage_source", ("b", "a"), "1 V"),
+            ("V3", "voltage_source", ("b", "c"), "1 V"),
+            ("V4", "voltage_source", ("c", "gnd"), "1 V"),
+            ("R1", "resistor", ("b", "gnd"), "1 kohm"),
+        ]
+    )
     assert e.condition == "voltage loop"
     assert sorted(e.culprits) == ["V1", "V2", "V3", "V4"]
 
 
 def test_cut_set_of_one_node_in_words():
-    e = fault([
-        ("V1", "voltage_source", ("a", "gnd"), "5 V"),
-        ("I1", "current_source", ("a", "m"), "1 mA"),
-        ("I2", "current_source", ("m", "gnd"), "2 mA"),
-    ])  # fmt: skip
+    e = fault(
+        [
+            ("V1", "voltage_source", ("a", "gnd"), "5 V"),
+            ("I1", "current_source", ("a", "m"), "1 mA"),
+            ("I2", "current_source", ("m", "gnd"), "2 mA"),
+        ]
+    )
     assert e.condition == "current-source cut set"
     assert e.culprits == ("m", "I1", "I2")
     assert e.detail == (
@@ -119,14 +127,16 @@ def test_cut_set_of_one_node_in_words():
 def test_cut_set_of_two_nodes_names_only_the_crossing_sources():
     # I3 runs between a and b, inside the cut: it does not cross it; I4 is
     # elsewhere. Only I1 and I2 join {a, b} to the rest.
-    e = fault([
-        ("I1", "current_source", ("gnd", "a"), "1 mA"),
-        ("R1", "resistor", ("a", "b"), "1 kohm"),
-        ("I3", "current_source", ("a", "b"), "1 mA"),
-        ("I2", "current_source", ("b", "c"), "1 mA"),
-        ("R2", "resistor", ("c", "gnd"), "1 kohm"),
-        ("I4", "current_source", ("c", "gnd"), "1 mA"),
-    ])  # fmt: skip
+    e = fault(
+        [
+            ("I1", "current_source", ("gnd", "a"), "1 mA"),
+            ("R1", "resistor", ("a", "b"), "1 kohm"),
+            ("I3", "current_source", ("a", "b"), "1 mA"),
+            ("I2", "current_source", ("b", "c"), "1 mA"),
+            ("R2", "resistor", ("c", "gnd"), "1 kohm"),
+            ("I4", "current_source", ("c", "gnd"), "1 mA"),
+        ]
+    )
     assert e.condition == "current-source cut set"
     assert e.culprits == ("a", "b", "I1", "I2")
     assert e.detail == (
@@ -137,22 +147,28 @@ def test_cut_set_of_two_nodes_names_only_the_crossing_sources():
 
 def test_nodes_behind_open_contacts_have_no_dc_voltage():
     with registered():
-        one = fault([
-            ("V1", "voltage_source", ("a", "gnd"), "5 V"),
-            ("R1", "resistor", ("a", "gnd"), "1 kohm"),
-            ("K1", "contact", ("a", "m"), "10 mohm", {"state": '"open"'}),
-        ])  # fmt: skip
-        two = fault([
-            ("V1", "voltage_source", ("a", "gnd"), "5 V"),
-            ("K1", "contact", ("a", "m"), "10 mohm", {"state": '"open"'}),
-            ("R2", "resistor", ("m", "n"), "1 kohm"),
-            ("K2", "contact", ("n", "gnd"), "10 mohm", {"state": '"open"'}),
-        ])  # fmt: skip
-        mixed = fault([
-            ("V1", "voltage_source", ("a", "gnd"), "5 V"),
-            ("K1", "contact", ("a", "m"), "10 mohm", {"state": '"open"'}),
-            ("I1", "current_source", ("m", "gnd"), "1 mA"),
-        ])  # fmt: skip
+        one = fault(
+            [
+                ("V1", "voltage_source", ("a", "gnd"), "5 V"),
+                ("R1", "resistor", ("a", "gnd"), "1 kohm"),
+                ("K1", "contact", ("a", "m"), "10 mohm", {"state": '"open"'}),
+            ]
+        )
+        two = fault(
+            [
+                ("V1", "voltage_source", ("a", "gnd"), "5 V"),
+                ("K1", "contact", ("a", "m"), "10 mohm", {"state": '"open"'}),
+                ("R2", "resistor", ("m", "n"), "1 kohm"),
+                ("K2", "contact", ("n", "gnd"), "10 mohm", {"state": '"open"'}),
+            ]
+        )
+        mixed = fault(
+            [
+                ("V1", "voltage_source", ("a", "gnd"), "5 V"),
+                ("K1", "contact", ("a", "m"), "10 mohm", {"state": '"open"'}),
+                ("I1", "current_source", ("m", "gnd"), "1 mA"),
+            ]
+        )
     assert one.condition == "undetermined node voltage" and one.culprits == ("m", "K1")
     assert one.detail == (
         "node m: its DC voltage is not determined (joined to the rest only through K1, "
@@ -169,11 +185,13 @@ def test_nodes_behind_open_contacts_have_no_dc_voltage():
 
 
 def test_floating_island_in_words():
-    e = fault([
-        ("V1", "voltage_source", ("a", "gnd"), "5 V"),
-        ("R1", "resistor", ("a", "gnd"), "1 kohm"),
-        ("R2", "resistor", ("x", "y"), "1 kohm"),
-    ])  # fmt: skip
+    e = fault(
+        [
+            ("V1", "voltage_source", ("a", "gnd"), "5 V"),
+            ("R1", "resistor", ("a", "gnd"), "1 kohm"),
+            ("R2", "resistor", ("x", "y"), "1 kohm"),
+        ]
+    )
     assert e.detail == "no path to the reference node 'gnd' from: x, y"
 
 
@@ -185,25 +203,41 @@ def test_numbers_outside_their_sign():
         "R1 has zero resistance, which has no conductance to stamp; join its nodes or model "
         "it as a 0 V voltage source"
     )
-    neg = fault([*base, ("R1", "resistor", ("a", "b"), "-1 kohm"),
-                 ("R2", "resistor", ("b", "gnd"), "-2 kohm")])  # fmt: skip
+    neg = fault(
+        [
+            *base,
+            ("R1", "resistor", ("a", "b"), "-1 kohm"),
+            ("R2", "resistor", ("b", "gnd"), "-2 kohm"),
+        ]
+    )
     assert neg.condition == "negative resistance" and neg.culprits == ("R1",)  # the first
     assert neg.detail == "R1 has a negative resistance"
     with registered():
         # a further key (the source resistance of T1, the second such key) negative
-        more = fault([*base, ("W1", "winding", ("a", "b"), "1", {"resistance": '"2 ohm"'}),
-                      ("T1", "thevenin", ("b", "gnd"), "1 V", {"resistance": '"-5 ohm"'})])  # fmt: skip
-        winding = fault([*base, ("W1", "winding", ("a", "gnd"), "1",
-                                 {"resistance": '"-2 ohm"'})])  # fmt: skip
+        more = fault(
+            [
+                *base,
+                ("W1", "winding", ("a", "b"), "1", {"resistance": '"2 ohm"'}),
+                ("T1", "thevenin", ("b", "gnd"), "1 V", {"resistance": '"-5 ohm"'}),
+            ]
+        )
+        winding = fault([*base, ("W1", "winding", ("a", "gnd"), "1", {"resistance": '"-2 ohm"'})])
         turns = fault([*base, ("W1", "winding", ("a", "gnd"), "-1")])
         no_turns = fault([*base, ("W1", "winding", ("a", "gnd"), "0")])
         # zero is allowed where the sign is "nonnegative": a winding of 0 Ω is a short
-        r = calcdoc.solve(calcdoc.loads(project_text([
-            *base, ("W1", "winding", ("a", "b"), "1", {"resistance": '"0 ohm"'}),
-            ("R2", "resistor", ("b", "gnd"), "1 kohm"),
-            ("T1", "thevenin", ("c", "gnd"), "1 V", {"resistance": '"0 ohm"'}),
-            ("R3", "resistor", ("c", "gnd"), "1 kohm"),
-        ]))).cases[0]  # fmt: skip
+        r = calcdoc.solve(
+            calcdoc.loads(
+                project_text(
+                    [
+                        *base,
+                        ("W1", "winding", ("a", "b"), "1", {"resistance": '"0 ohm"'}),
+                        ("R2", "resistor", ("b", "gnd"), "1 kohm"),
+                        ("T1", "thevenin", ("c", "gnd"), "1 V", {"resistance": '"0 ohm"'}),
+                        ("R3", "resistor", ("c", "gnd"), "1 kohm"),
+                    ]
+                )
+            )
+        ).cases[0]
     assert more.condition == "negative resistance" and more.culprits == ("T1",)
     assert more.detail == "T1 has a negative source resistance"
     assert winding.detail == "W1 has a negative winding resistance"
@@ -217,11 +251,13 @@ def test_numbers_outside_their_sign():
 def test_parallel_sources_behind_a_resistor_with_its_own_current():
     # R1 comes first and has a current unknown (it controls H1), but a
     # resistor does not fix its voltage: the loop is V1 ∥ V2 alone.
-    e = fault([
-        ("R1", "resistor", ("a", "gnd"), "1 kohm"),
-        ("V1", "voltage_source", ("a", "gnd"), "5 V"),
-        ("V2", "voltage_source", ("a", "gnd"), "5 V"),
-        ("H1", "ccvs", ("h", "gnd"), "10 ohm", {"control": '"R1"'}),
-        ("Rh", "resistor", ("h", "gnd"), "1 kohm"),
-    ])  # fmt: skip
+    e = fault(
+        [
+            ("R1", "resistor", ("a", "gnd"), "1 kohm"),
+            ("V1", "voltage_source", ("a", "gnd"), "5 V"),
+            ("V2", "voltage_source", ("a", "gnd"), "5 V"),
+            ("H1", "ccvs", ("h", "gnd"), "10 ohm", {"control": '"R1"'}),
+            ("Rh", "resistor", ("h", "gnd"), "1 kohm"),
+        ]
+    )
     assert e.condition == "voltage loop" and e.culprits == ("V1", "V2")

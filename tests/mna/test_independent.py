@@ -25,8 +25,15 @@ from calcdoc.errors import SingularCircuitError
 from calcdoc.mna import solve as solve_mod
 
 VOLTAGE_DEFINED = {"voltage_source", "vcvs", "ccvs"}
-UNITS = {"resistor": "ohm", "voltage_source": "V", "current_source": "A", "vcvs": "",
-         "vccs": "S", "ccvs": "ohm", "cccs": ""}  # fmt: skip
+UNITS = {
+    "resistor": "ohm",
+    "voltage_source": "V",
+    "current_source": "A",
+    "vcvs": "",
+    "vccs": "S",
+    "ccvs": "ohm",
+    "cccs": "",
+}
 
 
 def reference(elements, nodes):

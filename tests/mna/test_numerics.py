@@ -49,11 +49,19 @@ def exact_nodal(source: Fraction, resistors, top: str):
 
 
 def project(source_v: str, resistors, top: str):
-    lines = ["[elements.V1]", 'type = "voltage_source"', f'nodes = ["{top}", "gnd"]',
-             f'value = "{source_v}"']  # fmt: skip
+    lines = [
+        "[elements.V1]",
+        'type = "voltage_source"',
+        f'nodes = ["{top}", "gnd"]',
+        f'value = "{source_v}"',
+    ]
     for k, (a, b, r) in enumerate(resistors):
-        lines += [f"[elements.R{k}]", 'type = "resistor"', f'nodes = ["{a}", "{b}"]',
-                  f'value = "{r}"']  # fmt: skip
+        lines += [
+            f"[elements.R{k}]",
+            'type = "resistor"',
+            f'nodes = ["{a}", "{b}"]',
+            f'value = "{r}"',
+        ]
     return calcdoc.loads("\n".join(lines) + "\n")
 
 
@@ -70,8 +78,15 @@ def chain(sections: int):
 
 def as_fraction(text: str) -> Fraction:
     num, unit = text.split()
-    scale = {"uohm": Fraction(1, 10**6), "kohm": 10**3, "Tohm": 10**12, "Mohm": 10**6,
-             "ohm": 1, "mohm": Fraction(1, 1000), "Gohm": 10**9}[unit]  # fmt: skip
+    scale = {
+        "uohm": Fraction(1, 10**6),
+        "kohm": 10**3,
+        "Tohm": 10**12,
+        "Mohm": 10**6,
+        "ohm": 1,
+        "mohm": Fraction(1, 1000),
+        "Gohm": 10**9,
+    }[unit]
     return Fraction(num) * scale
 
 

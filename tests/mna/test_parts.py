@@ -23,11 +23,13 @@ def near(a: float, b: float) -> bool:
 def test_diode_with_series_resistor(vs, vf, r, rs):
     # Closed form: I = (V − Vf)/(R + Rs) while the diode conducts (common practice, no source).
     d = {"forward_voltage": f"{vf} V"} | ({"resistance": f"{rs} ohm"} if rs else {})
-    case = solve_parts([
-        ("V1", "voltage_source", ("in", "gnd"), {"value": f"{vs} V"}),
-        ("R1", "resistor", ("in", "a"), {"value": f"{r} ohm"}),
-        ("D1", "diode", ("a", "gnd"), d),
-    ]).cases[0]  # fmt: skip
+    case = solve_parts(
+        [
+            ("V1", "voltage_source", ("in", "gnd"), {"value": f"{vs} V"}),
+            ("R1", "resistor", ("in", "a"), {"value": f"{r} ohm"}),
+            ("D1", "diode", ("a", "gnd"), d),
+        ]
+    ).cases[0]
     want = (vs - vf) / (r + (rs or 0))
     v, i = element_results(case, "D1")
     assert near(i, want)
@@ -39,12 +41,18 @@ def test_diode_with_series_resistor(vs, vf, r, rs):
 
 def test_reversed_diode_blocks_with_the_full_voltage():
     # Closed form: a blocking diode carries no current, so it takes the whole source voltage.
-    case = solve_parts([
-        ("V1", "voltage_source", ("in", "gnd"), {"value": "5 V"}),
-        ("R1", "resistor", ("in", "a"), {"value": "1 kohm"}),
-        ("D1", "diode", ("gnd", "a"), {"forward_voltage": "0.7 V",
-                                        "rating": {"reverse_voltage": "10 V"}}),
-    ]).cases[0]  # fmt: skip
+    case = solve_parts(
+        [
+            ("V1", "voltage_source", ("in", "gnd"), {"value": "5 V"}),
+            ("R1", "resistor", ("in", "a"), {"value": "1 kohm"}),
+            (
+                "D1",
+                "diode",
+                ("gnd", "a"),
+                {"forward_voltage": "0.7 V", "rating": {"reverse_voltage": "10 V"}},
+            ),
+        ]
+    ).cases[0]
     v, i = element_results(case, "D1")
     assert state_of(case, "D1") == "blocking" and i == 0.0 and near(v, -5.0)
     check = {c.id: c for c in case.checks}["D1.reverse_voltage"]
@@ -54,13 +62,15 @@ def test_reversed_diode_blocks_with_the_full_voltage():
 @pytest.mark.parametrize(("rin", "rf", "vin"), [(1000, 4700, 1.0), (2200, 10_000, -0.5)])
 def test_inverting_amplifier(rin, rf, vin):
     # Closed form: ideal inverting amplifier, gain −Rf/Rin (common practice, no source).
-    case = solve_parts([
-        ("V1", "voltage_source", ("in", "gnd"), {"value": f"{vin} V"}),
-        ("Rin", "resistor", ("in", "n"), {"value": f"{rin} ohm"}),
-        ("Rf", "resistor", ("n", "out"), {"value": f"{rf} ohm"}),
-        ("U1", "opamp", ("out", "gnd"), {"control": ["gnd", "n"]}),
-        ("RL", "resistor", ("out", "gnd"), {"value": "10 kohm"}),
-    ]).cases[0]  # fmt: skip
+    case = solve_parts(
+        [
+            ("V1", "voltage_source", ("in", "gnd"), {"value": f"{vin} V"}),
+            ("Rin", "resistor", ("in", "n"), {"value": f"{rin} ohm"}),
+            ("Rf", "resistor", ("n", "out"), {"value": f"{rf} ohm"}),
+            ("U1", "opamp", ("out", "gnd"), {"control": ["gnd", "n"]}),
+            ("RL", "resistor", ("out", "gnd"), {"value": "10 kohm"}),
+        ]
+    ).cases[0]
     v = node_voltages(case)
     assert near(v["out"], -rf / rin * vin)
     assert near(v["n"], 0.0)  # the virtual short
@@ -71,14 +81,23 @@ def test_inverting_amplifier(rin, rf, vin):
 
 def test_non_inverting_amplifier():
     # Closed form: ideal non-inverting amplifier, gain 1 + Rf/Rg (common practice, no source).
-    case = solve_parts([
-        ("V1", "voltage_source", ("in", "gnd"), {"value": "0.8 V"}),
-        ("U1", "opamp", ("out", "gnd"), {"control": ["in", "n"],
-                                          "output_range": ["-12 V", "12 V"],
-                                          "rating": {"current": "20 mA"}}),
-        ("Rf", "resistor", ("out", "n"), {"value": "2.2 kohm"}),
-        ("Rg", "resistor", ("n", "gnd"), {"value": "1 kohm"}),
-    ]).cases[0]  # fmt: skip
+    case = solve_parts(
+        [
+            ("V1", "voltage_source", ("in", "gnd"), {"value": "0.8 V"}),
+            (
+                "U1",
+                "opamp",
+                ("out", "gnd"),
+                {
+                    "control": ["in", "n"],
+                    "output_range": ["-12 V", "12 V"],
+                    "rating": {"current": "20 mA"},
+                },
+            ),
+            ("Rf", "resistor", ("out", "n"), {"value": "2.2 kohm"}),
+            ("Rg", "resistor", ("n", "gnd"), {"value": "1 kohm"}),
+        ]
+    ).cases[0]
     out = node_voltages(case)["out"]
     assert near(out, 0.8 * (1 + 2200 / 1000))
     checks = {c.id: c for c in case.checks}
@@ -88,13 +107,19 @@ def test_non_inverting_amplifier():
 
 
 def _zener_shunt(vs: float):
-    return solve_parts([
-        ("V1", "voltage_source", ("in", "gnd"), {"value": f"{vs} V"}),
-        ("Rs", "resistor", ("in", "out"), {"value": "470 ohm"}),
-        ("Z1", "diode", ("gnd", "out"), {"forward_voltage": "0.7 V", "resistance": "5 ohm",
-                                          "breakdown_voltage": "5.1 V"}),
-        ("RL", "resistor", ("out", "gnd"), {"value": "1 kohm"}),
-    ]).cases[0]  # fmt: skip
+    return solve_parts(
+        [
+            ("V1", "voltage_source", ("in", "gnd"), {"value": f"{vs} V"}),
+            ("Rs", "resistor", ("in", "out"), {"value": "470 ohm"}),
+            (
+                "Z1",
+                "diode",
+                ("gnd", "out"),
+                {"forward_voltage": "0.7 V", "resistance": "5 ohm", "breakdown_voltage": "5.1 V"},
+            ),
+            ("RL", "resistor", ("out", "gnd"), {"value": "1 kohm"}),
+        ]
+    ).cases[0]
 
 
 def test_zener_shunt_regulator_in_breakdown():
@@ -123,14 +148,20 @@ def test_zener_shunt_regulator_out_of_breakdown():
 def test_diode_or_one_supply_blocks():
     # Closed form: the higher supply conducts, out = 12 − 0.7 V; the other diode is
     # reverse-biased by 11.3 − 10 = 1.3 V (common practice, no source).
-    case = solve_parts([
-        ("VA", "voltage_source", ("a", "gnd"), {"value": "12 V"}),
-        ("VB", "voltage_source", ("b", "gnd"), {"value": "10 V"}),
-        ("DA", "diode", ("a", "out"), {"forward_voltage": "0.7 V"}),
-        ("DB", "diode", ("b", "out"), {"forward_voltage": "0.7 V",
-                                        "rating": {"reverse_voltage": "40 V"}}),
-        ("RL", "resistor", ("out", "gnd"), {"value": "100 ohm"}),
-    ]).cases[0]  # fmt: skip
+    case = solve_parts(
+        [
+            ("VA", "voltage_source", ("a", "gnd"), {"value": "12 V"}),
+            ("VB", "voltage_source", ("b", "gnd"), {"value": "10 V"}),
+            ("DA", "diode", ("a", "out"), {"forward_voltage": "0.7 V"}),
+            (
+                "DB",
+                "diode",
+                ("b", "out"),
+                {"forward_voltage": "0.7 V", "rating": {"reverse_voltage": "40 V"}},
+            ),
+            ("RL", "resistor", ("out", "gnd"), {"value": "100 ohm"}),
+        ]
+    ).cases[0]
     assert near(node_voltages(case)["out"], 11.3)
     assert state_of(case, "DA") == "conducting" and state_of(case, "DB") == "blocking"
     assert near({c.id: c for c in case.checks}["DB.reverse_voltage"].value, 1.3)
@@ -143,14 +174,16 @@ def test_bridge_rectifier_either_polarity(vs):
     # I = (|V| − 2·Vf)/(R + 2·Rs) in the same direction for either polarity.
     vf, rs, rl = 0.7, 0.2, 100.0
     d = {"forward_voltage": f"{vf} V", "resistance": f"{rs} ohm"}
-    case = solve_parts([
-        ("V1", "voltage_source", ("p", "gnd"), {"value": f"{vs} V"}),
-        ("D1", "diode", ("p", "pos"), d),
-        ("D2", "diode", ("gnd", "pos"), d),
-        ("D3", "diode", ("neg", "p"), d),
-        ("D4", "diode", ("neg", "gnd"), d),
-        ("RL", "resistor", ("pos", "neg"), {"value": f"{rl} ohm"}),
-    ]).cases[0]  # fmt: skip
+    case = solve_parts(
+        [
+            ("V1", "voltage_source", ("p", "gnd"), {"value": f"{vs} V"}),
+            ("D1", "diode", ("p", "pos"), d),
+            ("D2", "diode", ("gnd", "pos"), d),
+            ("D3", "diode", ("neg", "p"), d),
+            ("D4", "diode", ("neg", "gnd"), d),
+            ("RL", "resistor", ("pos", "neg"), {"value": f"{rl} ohm"}),
+        ]
+    ).cases[0]
     _, i = element_results(case, "RL")
     assert near(i, (abs(vs) - 2 * vf) / (rl + 2 * rs))
     on = {"D1", "D4"} if vs > 0 else {"D2", "D3"}
@@ -162,13 +195,19 @@ def test_capacitor_open_and_coil_short_at_dc():
     # resistance R(L1) form the only path: I = V/(R1 + R_L); V(C1) = I·R_L;
     # energies ½CV² and ½LI² (common practice, no source).
     v, r1, rl, c, ind = 10.0, 400.0, 100.0, 10e-6, 0.5
-    case = solve_parts([
-        ("V1", "voltage_source", ("in", "gnd"), {"value": f"{v} V"}),
-        ("R1", "resistor", ("in", "a"), {"value": f"{r1} ohm"}),
-        ("L1", "inductor", ("a", "gnd"), {"value": f"{ind} H", "resistance": f"{rl} ohm",
-                                          "rating": {"current": "50 mA"}}),
-        ("C1", "capacitor", ("a", "gnd"), {"value": "10 uF", "rating": {"voltage": "16 V"}}),
-    ]).cases[0]  # fmt: skip
+    case = solve_parts(
+        [
+            ("V1", "voltage_source", ("in", "gnd"), {"value": f"{v} V"}),
+            ("R1", "resistor", ("in", "a"), {"value": f"{r1} ohm"}),
+            (
+                "L1",
+                "inductor",
+                ("a", "gnd"),
+                {"value": f"{ind} H", "resistance": f"{rl} ohm", "rating": {"current": "50 mA"}},
+            ),
+            ("C1", "capacitor", ("a", "gnd"), {"value": "10 uF", "rating": {"voltage": "16 V"}}),
+        ]
+    ).cases[0]
     i = v / (r1 + rl)
     assert near(element_results(case, "C1")[1], 0.0)
     assert near(element_results(case, "C1")[0], i * rl)
@@ -180,11 +219,13 @@ def test_capacitor_open_and_coil_short_at_dc():
 
 def test_ideal_coil_is_a_short():
     # Closed form: with no winding resistance the coil is a short: I = V/R1, V(L1) = 0.
-    case = solve_parts([
-        ("V1", "voltage_source", ("in", "gnd"), {"value": "6 V"}),
-        ("R1", "resistor", ("in", "a"), {"value": "300 ohm"}),
-        ("L1", "inductor", ("a", "gnd"), {"value": "1 mH"}),
-    ]).cases[0]  # fmt: skip
+    case = solve_parts(
+        [
+            ("V1", "voltage_source", ("in", "gnd"), {"value": "6 V"}),
+            ("R1", "resistor", ("in", "a"), {"value": "300 ohm"}),
+            ("L1", "inductor", ("a", "gnd"), {"value": "1 mH"}),
+        ]
+    ).cases[0]
     v, i = element_results(case, "L1")
     assert v == 0.0 and near(i, 0.02)
 
@@ -264,11 +305,13 @@ def test_a_hair_beyond_the_threshold_is_decided_on_the_exact_solution():
     # (closed form, Ohm's law; common practice, no source).
     from fractions import Fraction
 
-    case = solve_parts([
-        ("V1", "voltage_source", ("in", "gnd"), {"value": "0.70000000000000000001 V"}),
-        ("R1", "resistor", ("in", "a"), {"value": "1 kohm"}),
-        ("D1", "diode", ("a", "gnd"), {"forward_voltage": "0.7 V"}),
-    ]).cases[0]  # fmt: skip
+    case = solve_parts(
+        [
+            ("V1", "voltage_source", ("in", "gnd"), {"value": "0.70000000000000000001 V"}),
+            ("R1", "resistor", ("in", "a"), {"value": "1 kohm"}),
+            ("D1", "diode", ("a", "gnd"), {"forward_voltage": "0.7 V"}),
+        ]
+    ).cases[0]
     assert state_of(case, "D1") == "conducting"
     assert case.branches.exact_current[case.netlist.index("D1")] == Fraction(1, 10**23)
     assert case.states.holds

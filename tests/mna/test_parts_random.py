@@ -34,8 +34,14 @@ def random_circuit(seed: int, diodes: int, opamps: int):
 
     for k in range(1, len(nodes)):  # spanning tree of resistors
         r = float(rng.integers(10, 5000))
-        add(f"R{k}", "resistor", nodes[k], nodes[int(rng.integers(0, k))], {"value": f"{r} ohm"},
-            r=r)  # fmt: skip
+        add(
+            f"R{k}",
+            "resistor",
+            nodes[k],
+            nodes[int(rng.integers(0, k))],
+            {"value": f"{r} ohm"},
+            r=r,
+        )
     for k in range(int(rng.integers(1, 3))):  # sources from distinct nodes to the reference
         v = float(rng.integers(-24, 25)) or 5.0
         add(f"V{k}", "voltage_source", nodes[1 + k], "gnd", {"value": f"{v} V"}, v=v)
@@ -68,8 +74,7 @@ def random_circuit(seed: int, diodes: int, opamps: int):
         rin, rf = float(rng.integers(100, 10_000)), float(rng.integers(100, 10_000))
         add(f"Rin{k}", "resistor", src, f"m{k}", {"value": f"{rin} ohm"}, r=rin)
         add(f"Rf{k}", "resistor", f"m{k}", f"o{k}", {"value": f"{rf} ohm"}, r=rf)
-        add(f"U{k}", "opamp", f"o{k}", "gnd", {"control": ["gnd", f"m{k}"]},
-            cp="gnd", cn=f"m{k}")  # fmt: skip
+        add(f"U{k}", "opamp", f"o{k}", "gnd", {"control": ["gnd", f"m{k}"]}, cp="gnd", cn=f"m{k}")
         add(f"RL{k}", "resistor", f"o{k}", "gnd", {"value": "1 kohm"}, r=1000.0)
         vf = float(rng.uniform(0.3, 2))
         add(

@@ -32,14 +32,17 @@ def test_unbalanced_bridge_thevenin(make_project):
     # arm R5 is Vth / (Rth + R5) with Vth the open-arm voltage and Rth the
     # resistance seen from the arm with the source shorted.
     vs, r1, r2, r3, r4, r5 = 10, 1000, 2000, 3000, 4000, 500
-    r = nominal(make_project, [
-        ("V1", "voltage_source", ("a", "gnd"), f"{vs} V"),
-        ("R1", "resistor", ("a", "x"), f"{r1} ohm"),
-        ("R2", "resistor", ("x", "gnd"), f"{r2} ohm"),
-        ("R3", "resistor", ("a", "y"), f"{r3} ohm"),
-        ("R4", "resistor", ("y", "gnd"), f"{r4} ohm"),
-        ("R5", "resistor", ("x", "y"), f"{r5} ohm"),
-    ])  # fmt: skip
+    r = nominal(
+        make_project,
+        [
+            ("V1", "voltage_source", ("a", "gnd"), f"{vs} V"),
+            ("R1", "resistor", ("a", "x"), f"{r1} ohm"),
+            ("R2", "resistor", ("x", "gnd"), f"{r2} ohm"),
+            ("R3", "resistor", ("a", "y"), f"{r3} ohm"),
+            ("R4", "resistor", ("y", "gnd"), f"{r4} ohm"),
+            ("R5", "resistor", ("x", "y"), f"{r5} ohm"),
+        ],
+    )
     vth = Fraction(vs * r2, r1 + r2) - Fraction(vs * r4, r3 + r4)
     rth = Fraction(r1 * r2, r1 + r2) + Fraction(r3 * r4, r3 + r4)
     i5 = vth / (rth + r5)
@@ -65,24 +68,30 @@ def test_r2r_ladder_halves_each_stage(make_project, stages):
 def test_vcvs_non_inverting_amplifier(make_project):
     # Hand solution: Vout = A (Vin - Vout Rg/(Rf+Rg))  =>  Vout = A Vin / (1 + A Rg/(Rf+Rg)).
     a, vin, rf, rg = 1000, Fraction(1, 10), 9000, 1000
-    r = nominal(make_project, [
-        ("Vin", "voltage_source", ("p", "gnd"), "0.1 V"),
-        ("E1", "vcvs", ("out", "gnd"), f"{a}", {"control": '["p", "n"]'}),
-        ("Rf", "resistor", ("out", "n"), f"{rf} ohm"),
-        ("Rg", "resistor", ("n", "gnd"), f"{rg} ohm"),
-    ])  # fmt: skip
+    r = nominal(
+        make_project,
+        [
+            ("Vin", "voltage_source", ("p", "gnd"), "0.1 V"),
+            ("E1", "vcvs", ("out", "gnd"), f"{a}", {"control": '["p", "n"]'}),
+            ("Rf", "resistor", ("out", "n"), f"{rf} ohm"),
+            ("Rg", "resistor", ("n", "gnd"), f"{rg} ohm"),
+        ],
+    )
     beta = Fraction(rg, rf + rg)
     assert r.branches.exact_node_voltage[r.netlist.nodes.index("out")] == a * vin / (1 + a * beta)
 
 
 def test_vccs_into_load(make_project):
     # Hand solution: the VCCS draws g*Vc from node out to gnd, so V(out) = -g Vc RL.
-    r = nominal(make_project, [
-        ("Vc", "voltage_source", ("c", "gnd"), "2 V"),
-        ("Rc", "resistor", ("c", "gnd"), "1 kohm"),
-        ("G1", "vccs", ("out", "gnd"), "5 mS", {"control": '["c", "gnd"]'}),
-        ("RL", "resistor", ("out", "gnd"), "200 ohm"),
-    ])  # fmt: skip
+    r = nominal(
+        make_project,
+        [
+            ("Vc", "voltage_source", ("c", "gnd"), "2 V"),
+            ("Rc", "resistor", ("c", "gnd"), "1 kohm"),
+            ("G1", "vccs", ("out", "gnd"), "5 mS", {"control": '["c", "gnd"]'}),
+            ("RL", "resistor", ("out", "gnd"), "200 ohm"),
+        ],
+    )
     assert node_v(r, "out") == pytest.approx(-0.005 * 2 * 200)
     assert current(r, "G1") == pytest.approx(0.01)
 
@@ -91,35 +100,43 @@ def test_ccvs_and_cccs(make_project):
     # Hand solution: I(Rsense) = 5 V / 1 kΩ = 5 mA.
     # CCVS H1: V(h) = 100 Ω x 5 mA = 0.5 V.  CCCS F1 drives 3 x 5 mA from gnd
     # into node f, so V(f) = 15 mA x 100 Ω = 1.5 V.
-    r = nominal(make_project, [
-        ("V1", "voltage_source", ("a", "gnd"), "5 V"),
-        ("Rsense", "resistor", ("a", "gnd"), "1 kohm"),
-        ("H1", "ccvs", ("h", "gnd"), "100 ohm", {"control": '"Rsense"'}),
-        ("Rh", "resistor", ("h", "gnd"), "1 kohm"),
-        ("F1", "cccs", ("gnd", "f"), "3", {"control": '"Rsense"'}),
-        ("Rf", "resistor", ("f", "gnd"), "100 ohm"),
-    ])  # fmt: skip
+    r = nominal(
+        make_project,
+        [
+            ("V1", "voltage_source", ("a", "gnd"), "5 V"),
+            ("Rsense", "resistor", ("a", "gnd"), "1 kohm"),
+            ("H1", "ccvs", ("h", "gnd"), "100 ohm", {"control": '"Rsense"'}),
+            ("Rh", "resistor", ("h", "gnd"), "1 kohm"),
+            ("F1", "cccs", ("gnd", "f"), "3", {"control": '"Rsense"'}),
+            ("Rf", "resistor", ("f", "gnd"), "100 ohm"),
+        ],
+    )
     assert r.branches.exact_node_voltage[r.netlist.nodes.index("h")] == Fraction(1, 2)
     assert r.branches.exact_node_voltage[r.netlist.nodes.index("f")] == Fraction(3, 2)
 
 
 def test_current_source_convention(make_project):
     # design.md: a current source drives `value` from its first node to its second.
-    r = nominal(make_project, [
-        ("I1", "current_source", ("gnd", "a"), "2 mA"),
-        ("R1", "resistor", ("a", "gnd"), "1 kohm"),
-    ])  # fmt: skip
+    r = nominal(
+        make_project,
+        [
+            ("I1", "current_source", ("gnd", "a"), "2 mA"),
+            ("R1", "resistor", ("a", "gnd"), "1 kohm"),
+        ],
+    )
     assert node_v(r, "a") == pytest.approx(2.0)
     assert current(r, "I1") == pytest.approx(0.002)
     assert float(r.branches.power[r.netlist.index("I1")]) == pytest.approx(-0.004)  # delivers
 
 
 def test_closed_form_matches_numeric(make_project):
-    p = make_project([
-        ("V1", "voltage_source", ("in", "gnd"), "10 V"),
-        ("R1", "resistor", ("in", "out"), "1 kohm"),
-        ("R2", "resistor", ("out", "gnd"), "3 kohm"),
-    ])  # fmt: skip
+    p = make_project(
+        [
+            ("V1", "voltage_source", ("in", "gnd"), "10 V"),
+            ("R1", "resistor", ("in", "out"), "1 kohm"),
+            ("R2", "resistor", ("out", "gnd"), "3 kohm"),
+        ]
+    )
     r = calcdoc.solve(p).cases[0]
     cf = closed_form(r.solution.formulation, r.values)
     assert cf.text[cf.unknowns.index("V(out)")] == "R2*V1/(R1 + R2)"  # the divider rule
@@ -193,8 +210,11 @@ def test_reciprocity(els, i, j):
 
 @pytest.mark.parametrize("path", ["exact", "dense", "sparse"])
 def test_solution_paths_agree(monkeypatch, make_project, path):
-    els = [("V1", "voltage_source", ("n0", "gnd"), "12 V"), ("E1", "vcvs", ("o", "gnd"), "3", {"control": '["n2", "gnd"]'}),
-           ("Ro", "resistor", ("o", "gnd"), "1 kohm")]  # fmt: skip
+    els = [
+        ("V1", "voltage_source", ("n0", "gnd"), "12 V"),
+        ("E1", "vcvs", ("o", "gnd"), "3", {"control": '["n2", "gnd"]'}),
+        ("Ro", "resistor", ("o", "gnd"), "1 kohm"),
+    ]
     for k in range(6):
         els.append((f"R{k}", "resistor", (f"n{k}", f"n{k + 1}"), f"{100 * (k + 1)} ohm"))
         els.append((f"S{k}", "resistor", (f"n{k + 1}", "gnd"), f"{1000 + 10 * k} ohm"))
@@ -215,11 +235,14 @@ def test_solution_paths_agree(monkeypatch, make_project, path):
 
 
 def test_formulation_lists_every_equation(make_project):
-    r = nominal(make_project, [
-        ("V1", "voltage_source", ("in", "gnd"), "10 V"),
-        ("R1", "resistor", ("in", "out"), "1 kohm"),
-        ("R2", "resistor", ("out", "gnd"), "1 kohm"),
-    ])  # fmt: skip
+    r = nominal(
+        make_project,
+        [
+            ("V1", "voltage_source", ("in", "gnd"), "10 V"),
+            ("R1", "resistor", ("in", "out"), "1 kohm"),
+            ("R2", "resistor", ("out", "gnd"), "1 kohm"),
+        ],
+    )
     eqs = formulation(r.netlist).equations
     assert [e.title for e in eqs] == ["KCL at node in", "KCL at node out", "Branch equation of V1"]
     assert eqs[2].text(r.values) == "V(in) = 10"
@@ -229,12 +252,15 @@ def test_ill_conditioned_system_is_solved_exactly_or_refined(make_project, monke
     # Two nodes joined by 1 mΩ, each with 100 GΩ to ground: the nodal
     # conductance matrix has eigenvalues about 2e3 and 2e-11 S, so its
     # condition number is about 1e14 (linear algebra, common practice).
-    r = nominal(make_project, [
-        ("I1", "current_source", ("gnd", "a"), "1 nA"),
-        ("R1", "resistor", ("a", "b"), "1 mohm"),
-        ("R2", "resistor", ("b", "gnd"), "100 Gohm"),
-        ("R3", "resistor", ("a", "gnd"), "100 Gohm"),
-    ])  # fmt: skip
+    r = nominal(
+        make_project,
+        [
+            ("I1", "current_source", ("gnd", "a"), "1 nA"),
+            ("R1", "resistor", ("a", "b"), "1 mohm"),
+            ("R2", "resistor", ("b", "gnd"), "100 Gohm"),
+            ("R3", "resistor", ("a", "gnd"), "100 Gohm"),
+        ],
+    )
     # exact arithmetic gives the exact answer, with no rounding to warn about:
     # 1 nA into (R3 || (R1 + R2))
     r3, r12 = Fraction(10**11), Fraction(10**11) + Fraction(1, 1000)
@@ -243,12 +269,15 @@ def test_ill_conditioned_system_is_solved_exactly_or_refined(make_project, monke
     assert r.solution.warnings == ()
     # in floating point the equilibrated, refined solve agrees to rounding
     monkeypatch.setattr(solve_mod, "EXACT_LIMIT", 0)
-    f = nominal(make_project, [
-        ("I1", "current_source", ("gnd", "a"), "1 nA"),
-        ("R1", "resistor", ("a", "b"), "1 mohm"),
-        ("R2", "resistor", ("b", "gnd"), "100 Gohm"),
-        ("R3", "resistor", ("a", "gnd"), "100 Gohm"),
-    ])  # fmt: skip
+    f = nominal(
+        make_project,
+        [
+            ("I1", "current_source", ("gnd", "a"), "1 nA"),
+            ("R1", "resistor", ("a", "b"), "1 mohm"),
+            ("R2", "resistor", ("b", "gnd"), "100 Gohm"),
+            ("R3", "resistor", ("a", "gnd"), "100 Gohm"),
+        ],
+    )
     assert f.solution.method == "dense LU"
     assert float(f.branches.node_voltage[1]) == pytest.approx(float(exact), rel=1e-15)
     assert f.solution.error_estimate < 1e-14 and f.solution.warnings == ()

@@ -50,8 +50,12 @@ def test_method_by_size_at_the_documented_limits(monkeypatch, limits, method, ke
 
 
 def test_a_value_that_is_not_rational_takes_the_float_path():
-    r = case([("V1", "voltage_source", ("a", "gnd"), "1 V"),
-              ("R1", "resistor", ("a", "gnd"), "sqrt(2) * 1 kohm")])  # fmt: skip
+    r = case(
+        [
+            ("V1", "voltage_source", ("a", "gnd"), "1 V"),
+            ("R1", "resistor", ("a", "gnd"), "sqrt(2) * 1 kohm"),
+        ]
+    )
     assert r.solution.method == "dense LU"
     assert r.branches.current[1] == pytest.approx(1 / (2**0.5 * 1000), rel=1e-15, abs=0)
 
@@ -74,8 +78,14 @@ def test_exact_elimination_gives_way_beyond_the_bit_limit(monkeypatch):
 def test_a_solution_exact_in_floats_needs_one_zero_correction(monkeypatch):
     # 2 A into 0.5 Ω: V(a) = 1 V is exact in floating point, so the residual is
     # zero and the one correction solved is zero: no error left.
-    r = case([("I1", "current_source", ("gnd", "a"), "2 A"),
-              ("R1", "resistor", ("a", "gnd"), "0.5 ohm")], monkeypatch, EXACT_LIMIT=0)  # fmt: skip
+    r = case(
+        [
+            ("I1", "current_source", ("gnd", "a"), "2 A"),
+            ("R1", "resistor", ("a", "gnd"), "0.5 ohm"),
+        ],
+        monkeypatch,
+        EXACT_LIMIT=0,
+    )
     s = r.solution
     assert (s.method, s.refinement_steps, s.error_estimate, s.residual) == ("dense LU", 1, 0, 0)
     assert s.condition == 1.0  # a 1×1 matrix
@@ -88,8 +98,11 @@ def test_relative_residual_recomputed_exactly(monkeypatch, path):
     # I(V1) = −4/3 is not a float, so the residual of the float solution is
     # not zero; it is recomputed here exactly from the reported x.
     limits = {"EXACT_LIMIT": 0} | ({"DENSE_LIMIT": 0} if path == "sparse" else {})
-    r = case([("V1", "voltage_source", ("a", "gnd"), "4 V"),
-              ("R1", "resistor", ("a", "gnd"), "3 ohm")], monkeypatch, **limits)  # fmt: skip
+    r = case(
+        [("V1", "voltage_source", ("a", "gnd"), "4 V"), ("R1", "resistor", ("a", "gnd"), "3 ohm")],
+        monkeypatch,
+        **limits,
+    )
     va, iv = (Fraction(v) for v in r.solution.x)
     res = max(abs(0 - (va / 3 + iv)), abs(4 - va))
     want = res / (Fraction(4, 3) * max(abs(va), abs(iv)) + 4)
@@ -140,8 +153,14 @@ def test_condition_of_the_equilibrated_matrix(monkeypatch, path):
 def test_large_unknowns_are_not_taken_for_large_errors(monkeypatch):
     # 100 kV across 3 mΩ: I = −33.3 MA through the source (Ohm's law). The
     # estimated error is relative to the size of x, so it stays at rounding level.
-    r = case([("V1", "voltage_source", ("a", "gnd"), "100 kV"),
-              ("R1", "resistor", ("a", "gnd"), "3 mohm")], monkeypatch, EXACT_LIMIT=0)  # fmt: skip
+    r = case(
+        [
+            ("V1", "voltage_source", ("a", "gnd"), "100 kV"),
+            ("R1", "resistor", ("a", "gnd"), "3 mohm"),
+        ],
+        monkeypatch,
+        EXACT_LIMIT=0,
+    )
     assert r.solution.x[1] == pytest.approx(-1e5 / 3e-3, rel=1e-15, abs=0)
     assert r.solution.error_estimate < 1e-15 and r.solution.warnings == ()
 
@@ -155,9 +174,12 @@ GAIN_CANCELS = [
 
 @pytest.mark.parametrize(
     ("limits", "how"),
-    [({}, "exact rank"), ({"EXACT_LIMIT": 0}, "numerical rank"),
-     ({"EXACT_LIMIT": 0, "DENSE_LIMIT": 0}, "numerical rank")],
-)  # fmt: skip
+    [
+        ({}, "exact rank"),
+        ({"EXACT_LIMIT": 0}, "numerical rank"),
+        ({"EXACT_LIMIT": 0, "DENSE_LIMIT": 0}, "numerical rank"),
+    ],
+)
 def test_gains_that_cancel_name_the_null_space(monkeypatch, limits, how):
     # E1 reads V(b) = 1·V(b): no equation fixes V(b). By hand, the null
     # vector of A is V(a) = 0, V(b) = t, I(V1) = t/R1, I(E1) = −t/R1.
@@ -175,17 +197,25 @@ def test_gains_that_cancel_name_the_null_space(monkeypatch, limits, how):
 
 @pytest.mark.parametrize(
     ("limits", "how"),
-    [({}, "exact rank"), ({"EXACT_LIMIT": 0}, "numerical rank"),
-     ({"EXACT_LIMIT": 0, "DENSE_LIMIT": 0}, "numerical rank")],
-)  # fmt: skip
+    [
+        ({}, "exact rank"),
+        ({"EXACT_LIMIT": 0}, "numerical rank"),
+        ({"EXACT_LIMIT": 0, "DENSE_LIMIT": 0}, "numerical rank"),
+    ],
+)
 def test_a_voltage_no_equation_mentions(monkeypatch, limits, how):
     # E1 alone at node b reads V(b) = 1·V(b): the row of E1 and the column of
     # V(b) are zero; the null vector is V(b) alone.
     with pytest.raises(SingularCircuitError) as info:
-        case([("V1", "voltage_source", ("a", "gnd"), "5 V"),
-              ("R1", "resistor", ("a", "gnd"), "1 kohm"),
-              ("E1", "vcvs", ("b", "gnd"), "1", {"control": '["b", "gnd"]'})],
-             monkeypatch, **limits)  # fmt: skip
+        case(
+            [
+                ("V1", "voltage_source", ("a", "gnd"), "5 V"),
+                ("R1", "resistor", ("a", "gnd"), "1 kohm"),
+                ("E1", "vcvs", ("b", "gnd"), "1", {"control": '["b", "gnd"]'}),
+            ],
+            monkeypatch,
+            **limits,
+        )
     assert info.value.culprits == ("V(b)",)
     assert info.value.detail == (
         f"the voltage of node b is not determined by the equations ({how}); check the "
@@ -229,8 +259,12 @@ def test_singular_at_the_condition_limit(monkeypatch, path):
 def test_refinement_stops_at_its_step_limit(monkeypatch):
     # The 1e11-conditioned pair of nodes (1 mΩ link, 100 MΩ to ground each;
     # see test_numerics) needs more than one correction; MAX_REFINEMENT caps them.
-    els = [("I1", "current_source", ("gnd", "a"), "1 nA"), ("R1", "resistor", ("a", "b"), "1 mohm"),
-           ("R2", "resistor", ("b", "gnd"), "100 Mohm"), ("R3", "resistor", ("a", "gnd"), "100 Mohm")]  # fmt: skip
+    els = [
+        ("I1", "current_source", ("gnd", "a"), "1 nA"),
+        ("R1", "resistor", ("a", "b"), "1 mohm"),
+        ("R2", "resistor", ("b", "gnd"), "100 Mohm"),
+        ("R3", "resistor", ("a", "gnd"), "100 Mohm"),
+    ]
     free = case(els, monkeypatch, EXACT_LIMIT=0).solution.refinement_steps
     assert free > 1
     for cap in (0, 1):
@@ -249,9 +283,7 @@ def test_column_equilibration_of_a_high_gain_stage(monkeypatch, path):
         ("E1", "vcvs", ("o", "gnd"), "1e6", {"control": '["x", "gnd"]'}),
         ("RL", "resistor", ("o", "gnd"), "1 kohm"),
     ]
-    A = np.array(
-        [[0, 0, 1, 0], [0, 1e-3, 0, 1], [1, 0, 0, 0], [-1e6, 1, 0, 0]], dtype=float
-    )  # fmt: skip
+    A = np.array([[0, 0, 1, 0], [0, 1e-3, 0, 1], [1, 0, 0, 0], [-1e6, 1, 0, 0]], dtype=float)
     limits = {"EXACT_LIMIT": 0} | ({"DENSE_LIMIT": 0} if path == "sparse" else {})
     r = case(els, monkeypatch, **limits)
     want = equilibrated_condition(A)

@@ -46,8 +46,12 @@ EVERY_KIND = [
     ("ccvs", Part("H2", "ccvs", "g", "f", F(-50), "I1"), None, {}),
     ("resistor", Part("R7", "resistor", "g", "gnd", F(250)), None, {}),
     ("cccs", Part("F2", "cccs", "d", "g", F(1, 2), "G1"), None, {}),
-    ("thevenin", Part("T1", "thevenin", "h", "gnd", F(5), r=F(50)), None,
-     {"resistance": '"50 ohm"'}),
+    (
+        "thevenin",
+        Part("T1", "thevenin", "h", "gnd", F(5), r=F(50)),
+        None,
+        {"resistance": '"50 ohm"'},
+    ),
     ("resistor", Part("R8", "resistor", "h", "a", F(1000)), None, {}),
     ("thevenin", Part("T2", "thevenin", "k", "b", F(3)), None, {}),
     ("resistor", Part("R9", "resistor", "k", "gnd", F(100)), None, {}),
@@ -59,7 +63,7 @@ EVERY_KIND = [
     ("winding", Part("W2", "short", "p", "q"), "1", {}),
     ("winding", Part("W3", "short", "q", "s"), "1", {"resistance": '"0 ohm"'}),
     ("resistor", Part("R12", "resistor", "s", "gnd", F(3000)), None, {}),
-]  # fmt: skip
+]
 
 
 def solved(rows, path="exact", monkeypatch=None):
@@ -153,11 +157,15 @@ def test_law_voltages_and_currents_off_the_solution():
 def test_a_network_without_sources_rests_at_zero(monkeypatch, path):
     # No source, no current and no voltage (common practice, no source): the
     # right-hand side is empty, and so is every result.
-    r = solved([
-        ("resistor", Part("R1", "resistor", "a", "b", F(1000)), None, {}),
-        ("resistor", Part("R2", "resistor", "b", "gnd", F(2000)), None, {}),
-        ("resistor", Part("R3", "resistor", "a", "gnd", F(3000)), None, {}),
-    ], path, monkeypatch)  # fmt: skip
+    r = solved(
+        [
+            ("resistor", Part("R1", "resistor", "a", "b", F(1000)), None, {}),
+            ("resistor", Part("R2", "resistor", "b", "gnd", F(2000)), None, {}),
+            ("resistor", Part("R3", "resistor", "a", "gnd", F(3000)), None, {}),
+        ],
+        path,
+        monkeypatch,
+    )
     assert not np.any(r.solution.x) and not np.any(r.branches.power)
     assert r.ledger.absorbed == r.ledger.delivered == 0.0
     if path != "exact":

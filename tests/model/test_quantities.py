@@ -53,9 +53,41 @@ def test_not_rkm(text):
     assert parse_rkm(text) is None
 
 
-UNITS = ["V", "mV", "kV", "A", "mA", "uA", "µA", "W", "mW", "kW", "ohm", "kohm", "Mohm", "mohm",
-         "kΩ", "MΩ", "S", "mS", "uS", "m", "km", "mm", "s", "ms", "K", "mohm/m", "V/V", "A/A",
-         "%", "ppm", "ppm/K", "ohm/m", "W/K"]  # fmt: skip
+UNITS = [
+    "V",
+    "mV",
+    "kV",
+    "A",
+    "mA",
+    "uA",
+    "µA",
+    "W",
+    "mW",
+    "kW",
+    "ohm",
+    "kohm",
+    "Mohm",
+    "mohm",
+    "kΩ",
+    "MΩ",
+    "S",
+    "mS",
+    "uS",
+    "m",
+    "km",
+    "mm",
+    "s",
+    "ms",
+    "K",
+    "mohm/m",
+    "V/V",
+    "A/A",
+    "%",
+    "ppm",
+    "ppm/K",
+    "ohm/m",
+    "W/K",
+]
 
 
 def _pint_si(unit: str) -> tuple[float, dict]:

@@ -93,10 +93,13 @@ class RecordPki:
         self.p12_path = folder / "signer.p12"
         self.p12_path.write_bytes(
             pkcs12.serialize_key_and_certificates(
-                b"signer", key, cert, [self.ca_cert],
+                b"signer",
+                key,
+                cert,
+                [self.ca_cert],
                 serialization.BestAvailableEncryption(KEY_PASSWORD),
             )
-        )  # fmt: skip
+        )
         self.ca_pem_path = folder / "ca.pem"
         self.ca_pem_path.write_bytes(self.ca_cert.public_bytes(serialization.Encoding.PEM))
         self.other_pem_path = folder / "other.pem"
@@ -137,8 +140,17 @@ SERVER_ONLY = [ExtendedKeyUsageOID.SERVER_AUTH]
 
 def key_usage(**bits: bool) -> x509.KeyUsage:
     """A key usage extension with only the named bits set (cryptography's names)."""
-    names = ("digital_signature", "content_commitment", "key_encipherment", "data_encipherment",
-             "key_agreement", "key_cert_sign", "crl_sign", "encipher_only", "decipher_only")  # fmt: skip
+    names = (
+        "digital_signature",
+        "content_commitment",
+        "key_encipherment",
+        "data_encipherment",
+        "key_agreement",
+        "key_cert_sign",
+        "crl_sign",
+        "encipher_only",
+        "decipher_only",
+    )
     return x509.KeyUsage(**{n: bits.get(n, False) for n in names})
 
 
@@ -148,14 +160,17 @@ def make_ca(cn: str, *, before: dt.timedelta = DAY, after: dt.timedelta = 30 * D
     now = dt.datetime.now(dt.timezone.utc)
     cert = (
         x509.CertificateBuilder()
-        .subject_name(_name(cn)).issuer_name(_name(cn)).public_key(key.public_key())
+        .subject_name(_name(cn))
+        .issuer_name(_name(cn))
+        .public_key(key.public_key())
         .serial_number(x509.random_serial_number())
-        .not_valid_before(now - before).not_valid_after(now + after)
+        .not_valid_before(now - before)
+        .not_valid_after(now + after)
         .add_extension(x509.BasicConstraints(ca=True, path_length=None), critical=True)
         .add_extension(key_usage(key_cert_sign=True, crl_sign=True), critical=True)
         .add_extension(x509.SubjectKeyIdentifier.from_public_key(key.public_key()), critical=False)
         .sign(key, hashes.SHA256())
-    )  # fmt: skip
+    )
     return key, cert
 
 
@@ -248,12 +263,15 @@ def add_document_timestamp(pdf: bytes) -> bytes:
     now = dt.datetime.now(dt.timezone.utc)
     tsa = (
         x509.CertificateBuilder()
-        .subject_name(_name("record test TSA")).issuer_name(_name("record test TSA"))
-        .public_key(tsa_key.public_key()).serial_number(x509.random_serial_number())
-        .not_valid_before(now - DAY).not_valid_after(now + 30 * DAY)
+        .subject_name(_name("record test TSA"))
+        .issuer_name(_name("record test TSA"))
+        .public_key(tsa_key.public_key())
+        .serial_number(x509.random_serial_number())
+        .not_valid_before(now - DAY)
+        .not_valid_after(now + 30 * DAY)
         .add_extension(x509.ExtendedKeyUsage([ExtendedKeyUsageOID.TIME_STAMPING]), critical=True)
         .sign(tsa_key, hashes.SHA256())
-    )  # fmt: skip
+    )
     stamper = DummyTimeStamper(
         tsa_cert=asn1_x509.Certificate.load(tsa.public_bytes(serialization.Encoding.DER)),
         tsa_key=asn1_keys.PrivateKeyInfo.load(
@@ -284,12 +302,20 @@ def add_fake_stamp(pdf: bytes, rect, *, page: int = 0, text: bytes = b"ALL CHECK
     with ``text`` at ``rect`` on ``page`` (the falsification of issue 13)."""
     w = IncrementalPdfFileWriter(BytesIO(pdf), strict=False)
     x1, y1, x2, y2 = rect
-    font = w.add_object(generic.DictionaryObject(
-        {_N("/Type"): _N("/Font"), _N("/Subtype"): _N("/Type1"), _N("/BaseFont"): _N("/Helvetica")}
-    ))  # fmt: skip
+    font = w.add_object(
+        generic.DictionaryObject(
+            {
+                _N("/Type"): _N("/Font"),
+                _N("/Subtype"): _N("/Type1"),
+                _N("/BaseFont"): _N("/Helvetica"),
+            }
+        )
+    )
     paint = b"1 1 1 rg 0 0 %.2f %.2f re f 0 0.4 0 rg BT /F1 20 Tf 8 8 Td (%s) Tj ET" % (
-        x2 - x1, y2 - y1, text
-    )  # fmt: skip
+        x2 - x1,
+        y2 - y1,
+        text,
+    )
     appearance = generic.StreamObject(
         {
             _N("/Type"): _N("/XObject"),
@@ -303,12 +329,20 @@ def add_fake_stamp(pdf: bytes, rect, *, page: int = 0, text: bytes = b"ALL CHECK
     )
     page_ref = w.root["/Pages"]["/Kids"][page]
     page_obj = page_ref.get_object()
-    widget = w.add_object(generic.DictionaryObject({
-        _N("/Type"): _N("/Annot"), _N("/Subtype"): _N("/Widget"), _N("/FT"): _N("/Sig"),
-        _N("/T"): generic.TextStringObject("Approval"), _N("/F"): generic.NumberObject(4),
-        _N("/Rect"): generic.ArrayObject([_num(v) for v in rect]), _N("/P"): page_ref,
-        _N("/AP"): generic.DictionaryObject({_N("/N"): w.add_object(appearance)}),
-    }))  # fmt: skip
+    widget = w.add_object(
+        generic.DictionaryObject(
+            {
+                _N("/Type"): _N("/Annot"),
+                _N("/Subtype"): _N("/Widget"),
+                _N("/FT"): _N("/Sig"),
+                _N("/T"): generic.TextStringObject("Approval"),
+                _N("/F"): generic.NumberObject(4),
+                _N("/Rect"): generic.ArrayObject([_num(v) for v in rect]),
+                _N("/P"): page_ref,
+                _N("/AP"): generic.DictionaryObject({_N("/N"): w.add_object(appearance)}),
+            }
+        )
+    )
     annots = generic.ArrayObject(list(page_obj.get("/Annots", [])))
     annots.append(widget)
     page_obj[_N("/Annots")] = annots

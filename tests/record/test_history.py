@@ -35,8 +35,12 @@ def project(revision: str, history: list[tuple[str, str]], date: str | None = "2
     if date:
         lines.append(f"date = {date}")
     for rev, when in history:
-        lines += ["[[document.history]]", f'revision = "{rev}"', f"date = {when}",
-                  'description = "issue"']  # fmt: skip
+        lines += [
+            "[[document.history]]",
+            f'revision = "{rev}"',
+            f"date = {when}",
+            'description = "issue"',
+        ]
     return calcdoc.loads("\n".join(lines) + "\n" + CIRCUIT, "p.toml")
 
 

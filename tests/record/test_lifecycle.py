@@ -37,8 +37,22 @@ def test_revise_compare_sign_and_verify(tmp_path, record_pki, monkeypatch, capsy
     monkeypatch.setenv(PASSWORD_ENV_VAR, KEY_PASSWORD.decode())
 
     assert main(["build", str(old_toml), "-o", str(old_pdf), "-q"]) == 0
-    assert main(["build", str(new_toml), "-o", str(new_pdf), "-q", "--previous", str(old_pdf),
-                 "--sign", str(record_pki.p12_path)]) == 0  # fmt: skip
+    assert (
+        main(
+            [
+                "build",
+                str(new_toml),
+                "-o",
+                str(new_pdf),
+                "-q",
+                "--previous",
+                str(old_pdf),
+                "--sign",
+                str(record_pki.p12_path),
+            ]
+        )
+        == 0
+    )
     err = capsys.readouterr().err
     assert "still" not in err  # the revision was raised: no same-revision warning
 

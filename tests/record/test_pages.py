@@ -204,7 +204,10 @@ def test_build_with_previous_carries_its_input_and_verifies(tmp_path, run_verify
     text = DEMO_PROJECT.read_text(encoding="utf-8").replace('revision = "B"', 'revision = "C"', 1)
     new_path.write_text(text, encoding="utf-8")
     out_pdf = tmp_path / "C.pdf"
-    assert main(["build", str(new_path), "-o", str(out_pdf), "-q", "--previous", str(DEMO_PROJECT)]) == 0  # fmt: skip
+    assert (
+        main(["build", str(new_path), "-o", str(out_pdf), "-q", "--previous", str(DEMO_PROJECT)])
+        == 0
+    )
     capsys.readouterr()
     from calcdoc.record.package import embedded_previous
 
@@ -238,7 +241,9 @@ def test_build_and_sign_then_verify_through_the_command_line(
 ) -> None:
     monkeypatch.setenv(PASSWORD_ENV_VAR, KEY_PASSWORD.decode())
     out_pdf = tmp_path / "signed.pdf"
-    code = main(["build", str(DEMO_PROJECT), "-o", str(out_pdf), "-q", "--sign", str(record_pki.p12_path)])  # fmt: skip
+    code = main(
+        ["build", str(DEMO_PROJECT), "-o", str(out_pdf), "-q", "--sign", str(record_pki.p12_path)]
+    )
     assert code == 0
     capsys.readouterr()
     assert main(["verify", str(out_pdf), "--trust", str(record_pki.ca_pem_path)]) == 0

@@ -44,7 +44,9 @@ def test_empty_previous_gets_its_own_message(content, phrase, suffix, tmp_path, 
 
 
 def test_previous_that_is_a_folder(tmp_path, capsys) -> None:
-    code = main(["build", str(DEMO_PROJECT), "-o", str(tmp_path / "n.pdf"), "--previous", str(tmp_path)])  # fmt: skip
+    code = main(
+        ["build", str(DEMO_PROJECT), "-o", str(tmp_path / "n.pdf"), "--previous", str(tmp_path)]
+    )
     err = capsys.readouterr().err
     assert code == 2 and f"{tmp_path}: not a regular file" in err
 

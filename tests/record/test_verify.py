@@ -132,8 +132,14 @@ def test_signed_package_verifies_with_trusted_ca(signed_package, record_pki) -> 
     v = verify_package(signed_package, [record_pki.ca_pem_path.read_bytes()])
     assert v.ok and v.signed
     assert [f.topic for f in v.findings] == [
-        "signature", "certificate", "identity", "input", "results", "pages", "updates"
-    ]  # fmt: skip
+        "signature",
+        "certificate",
+        "identity",
+        "input",
+        "results",
+        "pages",
+        "updates",
+    ]
     assert [f.status for f in v.findings] == ["pass"] * 7
     assert SIGNER_NAME in v.findings[0].message
     assert v.input_sha256 == DEMO_SHA

@@ -120,8 +120,12 @@ def test_a_rung_crossing_a_rail_it_does_not_join_breaks_the_rail_there():
     dots = [apply(tx, s.cx, s.cy) for s, tx in leaves if isinstance(s, Circle) and s.r <= 2.1]
     gaps = []
     for s, tx in leaves:
-        if isinstance(s, Rect) and s.fillColor is not None and s.fillColor.rgb() == (1, 1, 1) \
-                and s.strokeColor is None:  # fmt: skip
+        if (
+            isinstance(s, Rect)
+            and s.fillColor is not None
+            and s.fillColor.rgb() == (1, 1, 1)
+            and s.strokeColor is None
+        ):
             (x0, y0), (x1, y1) = apply(tx, s.x, s.y), apply(tx, s.x + s.width, s.y + s.height)
             gaps.append((min(x0, x1), min(y0, y1), max(x0, x1), max(y0, y1)))
     count = 0
@@ -143,8 +147,14 @@ def test_a_rung_crossing_a_rail_it_does_not_join_breaks_the_rail_there():
 
 def test_junction_dots_where_three_meet():
     d = drawing()
-    dots = [s for s, _ in walk(d.contents[0]) if isinstance(s, Circle) and s.r <= 2.1
-            and s.fillColor is not None and s.fillColor.rgb() == (0, 0, 0)]  # fmt: skip
+    dots = [
+        s
+        for s, _ in walk(d.contents[0])
+        if isinstance(s, Circle)
+        and s.r <= 2.1
+        and s.fillColor is not None
+        and s.fillColor.rgb() == (0, 0, 0)
+    ]
     # gnd joins eight parts: its rail has a dot at every joint but the last
     assert len(dots) >= 7
 
@@ -152,8 +162,14 @@ def test_junction_dots_where_three_meet():
 def test_every_dependent_source_has_its_control_drawn():
     d = drawing()
     dashed = [s for s in segments(d) if s[4]]
-    taps = [s for s, _ in walk(d.contents[0]) if isinstance(s, Circle) and s.fillColor is not None
-            and s.fillColor.rgb() == (1, 1, 1) and s.r < 2]  # fmt: skip
+    taps = [
+        s
+        for s, _ in walk(d.contents[0])
+        if isinstance(s, Circle)
+        and s.fillColor is not None
+        and s.fillColor.rgb() == (1, 1, 1)
+        and s.r < 2
+    ]
     rings = [s for s, _ in walk(d.contents[0]) if isinstance(s, Circle) and s.fillColor is None]
     assert len(rings) == 2  # H1 and F1 sense the current of R1
     assert (

@@ -96,9 +96,18 @@ def test_numbers_titles_sheets_and_cautions(built, name):
     n = len(pages)
     for k, page in enumerate(pages, 1):
         assert f"Sheet {k} of {n}" in page
-    for title in ("Contents", "1 Purpose, scope and method", "2 Design inputs", "3 Circuit diagram",
-                  "4 Formulation", "5 Solution", "6 Verification", "7 Design checks", "Appendix A",
-                  "Appendix B"):  # fmt: skip
+    for title in (
+        "Contents",
+        "1 Purpose, scope and method",
+        "2 Design inputs",
+        "3 Circuit diagram",
+        "4 Formulation",
+        "5 Solution",
+        "6 Verification",
+        "7 Design checks",
+        "Appendix A",
+        "Appendix B",
+    ):
         assert title in flat, title
     assert re.search(r"\d+ Conclusion", flat)
     for caution in CAUTIONS:
@@ -305,8 +314,12 @@ def test_long_title_does_not_overprint_the_number_and_bad_characters_warn(tmp_pa
     title = "Very long title " * 12 + "end"
     src = (ROOT / "tests" / "cases" / "divider.toml").read_text()
     hebrew = "\u05e9\u05dc\u05d5\u05dd \u05e2\u05d5\u05dc\u05dd"  # "shalom olam", logical order
-    src = src.replace("schema = 1", f'schema = 1\n[document]\ntitle = "{title}"\nnumber = "X-1"\n'
-                      f'revision = "A"\nproject = "Site \u6f22 {hebrew}"', 1)  # fmt: skip
+    src = src.replace(
+        "schema = 1",
+        f'schema = 1\n[document]\ntitle = "{title}"\nnumber = "X-1"\n'
+        f'revision = "A"\nproject = "Site \u6f22 {hebrew}"',
+        1,
+    )
     path = tmp_path / "p.toml"
     path.write_text(src)
     package = build_package(calcdoc.solve(calcdoc.load(path)))
@@ -336,11 +349,11 @@ SIGNOFFS = {
     "prepared": 'prepared = { name = "A", date = 2026-01-02 }',
     "checked": 'prepared = { name = "A", date = 2026-01-02 }\nchecked = { name = "B", date = 2026-01-03 }',
     "approved": 'prepared = { name = "A", date = 2026-01-02 }\nchecked = { name = "B", date = 2026-01-03 }\n'
-                'approved = { name = "C", date = 2026-01-04 }',
+    'approved = { name = "C", date = 2026-01-04 }',
     "approved_undated": 'prepared = { name = "A", date = 2026-01-02 }\nchecked = { name = "B", date = 2026-01-03 }\n'
-                        'approved = { name = "C" }',
+    'approved = { name = "C" }',
     "approved_unchecked": 'prepared = { name = "A", date = 2026-01-02 }\napproved = { name = "C", date = 2026-01-04 }',
-}  # fmt: skip
+}
 # (sign-off, verdict) -> (status on the cover and every footer, approved marking gone)
 EXPECTED = {
     ("none", "pass"): ("Draft", False),

@@ -55,11 +55,13 @@ def test_large_circuit_path_gives_the_same_sums(make_project, monkeypatch):
 def test_kvl_detects_a_wrong_source_voltage(make_project):
     # A loop sum uses each element's own law, so a solution that broke a
     # source's law would show: corrupt the law voltage and the sum moves.
-    p = make_project([
-        ("V1", "voltage_source", ("a", "gnd"), "5 V"),
-        ("R1", "resistor", ("a", "b"), "1 kohm"),
-        ("R2", "resistor", ("b", "gnd"), "1 kohm"),
-    ])  # fmt: skip
+    p = make_project(
+        [
+            ("V1", "voltage_source", ("a", "gnd"), "5 V"),
+            ("R1", "resistor", ("a", "b"), "1 kohm"),
+            ("R2", "resistor", ("b", "gnd"), "1 kohm"),
+        ]
+    )
     r = calcdoc.solve(p).cases[0]
     from dataclasses import replace
 

@@ -42,8 +42,11 @@ def test_kcl_sums_of_given_currents(exact):
     # gnd: +3 − 5 = −2; a: −3 + 2 = −1; b: −2 + 5 = 3.
     r = case(DIVIDER)
     given = [Fraction(-3), Fraction(2), Fraction(5)]
-    br = replace(r.branches, current=np.array([float(i) for i in given]),
-                 exact_current=tuple(given) if exact else None)  # fmt: skip
+    br = replace(
+        r.branches,
+        current=np.array([float(i) for i in given]),
+        exact_current=tuple(given) if exact else None,
+    )
     assert balance.kcl_residuals(r.netlist, br).tolist() == [-2.0, -1.0, 3.0]
 
 
@@ -110,14 +113,16 @@ def test_loops_through_parallel_elements_below_the_root():
     # gnd–a by V1 and gnd–c by R5 (depth 1); b below a by R1 (the first of
     # the parallel pair R1, R2). Chords: R2 (parallel to its tree element),
     # R3 and R4 (b to c). Each loop is a simple cycle, worked out by hand.
-    r = case([
-        ("V1", "voltage_source", ("a", "gnd"), "6 V"),
-        ("R1", "resistor", ("a", "b"), "1 kohm"),
-        ("R2", "resistor", ("a", "b"), "2 kohm"),
-        ("R3", "resistor", ("b", "c"), "1 kohm"),
-        ("R4", "resistor", ("b", "c"), "3 kohm"),
-        ("R5", "resistor", ("c", "gnd"), "1 kohm"),
-    ])  # fmt: skip
+    r = case(
+        [
+            ("V1", "voltage_source", ("a", "gnd"), "6 V"),
+            ("R1", "resistor", ("a", "b"), "1 kohm"),
+            ("R2", "resistor", ("a", "b"), "2 kohm"),
+            ("R3", "resistor", ("b", "c"), "1 kohm"),
+            ("R4", "resistor", ("b", "c"), "3 kohm"),
+            ("R5", "resistor", ("c", "gnd"), "1 kohm"),
+        ]
+    )
     loops = {lp.chord: (lp.elements, lp.signs) for lp in r.kvl.loops}
     assert loops == {
         "R2": (("R2", "R1"), (1, -1)),
@@ -130,8 +135,9 @@ def test_loops_through_parallel_elements_below_the_root():
 @pytest.mark.parametrize("listing", [3000, 0])
 def test_a_circuit_without_loops(monkeypatch, listing):
     monkeypatch.setattr(balance, "LOOP_LISTING_LIMIT", listing)
-    r = case([("V1", "voltage_source", ("a", "gnd"), "1 V"),
-              ("R1", "resistor", ("a", "b"), "1 kohm")])  # fmt: skip
+    r = case(
+        [("V1", "voltage_source", ("a", "gnd"), "1 V"), ("R1", "resistor", ("a", "b"), "1 kohm")]
+    )
     assert r.kvl.count == 0 and r.kvl.max_abs_sum == 0.0
 
 
