@@ -32,7 +32,7 @@ class ClosedForm:
     text : tuple of str
         Plain-text expression of each unknown.
     latex : tuple of str
-        The same in LaTeX (for mathtext typesetting).
+        The same in LaTeX (typeset by the report's equation layout).
     values : tuple of float
         Each expression evaluated with the case's values (equals the
         numeric solution; checked in tests).

@@ -22,6 +22,7 @@ LIBRARIES = (
     "pint",
     "reportlab",
     "matplotlib",
+    "fonttools",
     "pypdf",
     "tomli",
     "pyHanko",

@@ -1,4 +1,6 @@
-"""Mathtext for the engine's equation objects (layout only: no arithmetic on results).
+"""Equation markup for the engine's equation objects (layout only: no arithmetic on results).
+
+The markup is the TeX subset that :mod:`calcdoc.report.mathbox` reads.
 
 One convention throughout: the quantity letters V and I are italic; every
 element and node name is upright and written as in the project file (no
@@ -42,7 +44,7 @@ def tex_unknown(u: str) -> str:
 
 
 def tex_number(value: float, sig: int) -> str:
-    """A plain number in mathtext, ``1.994\\times10^{-6}`` beyond 0.001 … 9999."""
+    """A plain number in equation markup, ``1.994\\times10^{-6}`` beyond 0.001 … 9999."""
     text = number(value, sig).replace("−", "-")
     if "×" in text:
         mant, _, exp = text.partition(" × 10")
@@ -51,14 +53,14 @@ def tex_number(value: float, sig: int) -> str:
 
 
 def tex_quantity(value: float, unit: str, sig: int) -> str:
-    """A value with its unit in mathtext (``4.700\\,\\mathrm{k}\\Omega``), one unbreakable piece."""
+    """A value with its unit in equation markup (``4.700\\,\\mathrm{k}\\Omega``), one unbreakable piece."""
     if unit in ("V/V", "A/A", ""):
         return tex_number(value, sig)
     s = eng(value, unit, sig).replace("−", "-")
     num, _, u = s.partition(" ")
     prefix, sym = (u[: -len(unit)], unit) if u.endswith(unit) else (u, "")
     sym_tex = r"\Omega" if sym == "Ω" else (r"\mathrm{" + sym + "}" if sym else "")
-    pre_tex = r"\mu" if prefix == "µ" else (r"\mathrm{" + prefix + "}" if prefix else "")
+    pre_tex = r"\mathrm{\mu}" if prefix == "µ" else (r"\mathrm{" + prefix + "}" if prefix else "")
     return f"{num}\\,{pre_tex}{sym_tex}"
 
 
@@ -134,7 +136,7 @@ def equation_pieces(
     units: Mapping[str, str] | None = None,
     sig: int = 4,
 ) -> list[str]:
-    """Breakable mathtext pieces of ``lhs = rhs``.
+    """Breakable equation-markup pieces of ``lhs = rhs``.
 
     Parameters
     ----------

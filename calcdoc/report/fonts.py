@@ -23,15 +23,28 @@ class FontSet:
     mono_path: Path
 
 
+def font_folder() -> Path:
+    """matplotlib's folder of DejaVu faces, found without importing matplotlib."""
+    from importlib.util import find_spec
+
+    spec = find_spec("matplotlib")
+    for root in (spec.submodule_search_locations or []) if spec else []:
+        folder = Path(root) / "mpl-data" / "fonts" / "ttf"
+        if (folder / "DejaVuSans.ttf").is_file():
+            return folder
+    import matplotlib  # an unusual installation: ask matplotlib itself
+
+    return Path(matplotlib.get_data_path()) / "fonts" / "ttf"
+
+
 @lru_cache(maxsize=1)
 def register_fonts() -> FontSet:
     """Register the fonts with reportlab once and return their names and files."""
-    import matplotlib
     from reportlab.lib.fonts import addMapping
     from reportlab.pdfbase import pdfmetrics
     from reportlab.pdfbase.ttfonts import TTFont
 
-    base = Path(matplotlib.get_data_path()) / "fonts" / "ttf"
+    base = font_folder()
     files = {
         "CalcdocSans": base / "DejaVuSans.ttf",
         "CalcdocSans-Bold": base / "DejaVuSans-Bold.ttf",

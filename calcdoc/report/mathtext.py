@@ -1,42 +1,27 @@
-"""Equations as vector outlines: matplotlib mathtext glyphs drawn as PDF paths.
+"""Equations as vector outlines, drawn on the reportlab canvas as filled paths.
 
-matplotlib lays out the mathematics (fractions, sub- and superscripts) and
-gives the glyph outlines; they are drawn on the reportlab canvas as filled
-paths (quadratic segments raised to cubic), never as raster images.  The
-plain text of each equation is laid under it in invisible text so that the
-package stays searchable.
+:mod:`calcdoc.report.mathbox` lays out the mathematics (fractions, sub- and
+superscripts, sized parentheses) and gives the glyph outlines of the
+embedded faces; they are filled here (quadratic segments raised to cubic),
+never as raster images.  The plain text of each equation is laid under it
+in invisible text so that the package stays searchable.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from functools import lru_cache
 
 from reportlab.platypus import Flowable
 
+from calcdoc.report.mathbox import outline as _layout
+
 MATH_SIZE = 10.0
+LINE_GAP = 0.5  # between lines of equations, ems: a fraction's foot clears the next line
 
 
-@lru_cache(maxsize=4096)
 def outline(tex: str, size: float = MATH_SIZE) -> tuple[tuple, float, float, float]:
-    """Path segments, width, height and depth (points) of a mathtext string."""
-    import matplotlib
-
-    matplotlib.rcParams["mathtext.fontset"] = "dejavusans"
-    from matplotlib.font_manager import FontProperties
-    from matplotlib.textpath import TextPath
-
-    path = TextPath((0, 0), tex, size=size, prop=FontProperties(family="DejaVu Sans"))
-    verts = path.vertices
-    if len(verts):  # the control-point box: a close, cheap bound of the outline
-        x1, y0, y1 = float(verts[:, 0].max()), float(verts[:, 1].min()), float(verts[:, 1].max())
-    else:
-        x1 = y0 = y1 = 0.0
-    segs = tuple(
-        (tuple(round(float(v), 2) for v in pts), int(code))
-        for pts, code in path.iter_segments(curves=True)
-    )
-    return segs, x1, max(y1, 0.0), max(-y0, 0.0)
+    """Path segments, width, height and depth (points) of an equation (``$…$``)."""
+    return _layout(tex, size)
 
 
 def draw_outline(canv, segs, x: float, y: float) -> None:
@@ -119,7 +104,7 @@ class MathLines(Flowable):
         self.lines = lines
         self.heights = [outline(f"${ln.tex}$", self.size)[2:] for ln in lines]
         self.width = avail_w
-        self.height = sum(h + d + 0.35 * self.size for h, d in self.heights)
+        self.height = sum(h + d + LINE_GAP * self.size for h, d in self.heights)
         return self.width, self.height
 
     def draw(self) -> None:
@@ -127,7 +112,7 @@ class MathLines(Flowable):
         y = self.height
         first = True
         for ln, (h, d) in zip(self.lines, self.heights, strict=True):
-            y -= h + 0.175 * self.size
+            y -= h + LINE_GAP / 2 * self.size
             segs = outline(f"${ln.tex}$", self.size)[0]
             draw_outline(c, segs, ln.indent, y)
             if first:  # searchable text layer
@@ -137,4 +122,4 @@ class MathLines(Flowable):
                 t.textOut(self.plain)
                 c.drawText(t)
                 first = False
-            y -= d + 0.175 * self.size
+            y -= d + LINE_GAP / 2 * self.size
