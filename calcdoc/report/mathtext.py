@@ -13,15 +13,10 @@ from dataclasses import dataclass
 
 from reportlab.platypus import Flowable
 
-from calcdoc.report.mathbox import outline as _layout
+from calcdoc.report.mathbox import outline
 
 MATH_SIZE = 10.0
 LINE_GAP = 0.5  # between lines of equations, ems: a fraction's foot clears the next line
-
-
-def outline(tex: str, size: float = MATH_SIZE) -> tuple[tuple, float, float, float]:
-    """Path segments, width, height and depth (points) of an equation (``$…$``)."""
-    return _layout(tex, size)
 
 
 def draw_outline(canv, segs, x: float, y: float) -> None:
