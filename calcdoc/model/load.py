@@ -1391,6 +1391,7 @@ def _parse_project(source: bytes | str, path: str) -> Project:
         raise ProjectError(faults.items, path)
     warnings = _case_clashes("element", [e.name for e in project.elements])
     warnings += _case_clashes("node", list(project.nodes))
+    warnings += _fixed_further_keys(project)
     return replace(project, warnings=tuple(warnings)) if warnings else project
 
 
@@ -1473,6 +1474,47 @@ def _check_sample_size(project: Project, faults: _Faults) -> None:
             f"samples x (nodes + elements) = {MAX_SAMPLE_VALUES:,}; "
             f"use at most {max(MAX_SAMPLE_VALUES // size, 0):,} samples",
         )
+
+
+def _fixed_further_keys(project: Project) -> list[str]:
+    """Warnings for further keys that name a parameter a case, sweep or tolerance changes.
+
+    Only an element's main value is evaluated again when a parameter
+    changes; a further key (a diode's forward voltage, a contact's
+    resistance) keeps the value it has with every parameter nominal.
+    """
+    params = {q.name: q for q in project.parameters}
+    why: dict[str, set[str]] = {}
+    for case in project.cases:
+        for s in case.settings:
+            if s.target in params:
+                why.setdefault(s.target, set()).add(f"case {case.name!r}")
+    for sw in project.sweeps:
+        if sw.target in params:
+            why.setdefault(sw.target, set()).add("a sweep")
+    if project.analysis.tolerance != "none":
+        for q in project.parameters:
+            if q.tolerance is not None:
+                why.setdefault(q.name, set()).add("the tolerance analysis")
+    changed = True
+    while changed:  # parameters defined from changed ones change too
+        changed = False
+        for q in project.parameters:
+            if q.name not in why and (hit := names_in(q.expr) & why.keys()):
+                why[q.name] = set().union(*(why[h] for h in hit))
+                changed = True
+    out = []
+    for e in project.elements:
+        for k in e.more:
+            hit = sorted(names_in(k.expr) & why.keys())
+            if hit:
+                by = sorted(set().union(*(why[h] for h in hit)))
+                out.append(
+                    f"elements.{e.name}.{k.key}: uses parameter {', '.join(map(repr, hit))}, "
+                    f"which {', '.join(by)} changes; only main values follow a parameter, "
+                    f"so there this key keeps its value with every parameter nominal"
+                )
+    return out
 
 
 def _case_clashes(what: str, names: list[str]) -> list[str]:

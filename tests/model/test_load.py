@@ -314,3 +314,37 @@ def test_case_override_at_the_end_of_a_long_parameter_chain():
 def test_text_that_is_not_unicode_is_an_input_error():
     with pytest.raises(ProjectError, match="not valid Unicode"):
         calcdoc.loads("title = '\ud800'", "p.toml")
+
+
+FURTHER_KEY = """
+[parameters]
+vf = "0.7 V"
+rd = "vf / 1 A"
+[elements.V1]
+type = "voltage_source"
+nodes = ["a", "gnd"]
+value = "5 V"
+[elements.R1]
+type = "resistor"
+nodes = ["a", "k"]
+value = "1 kohm"
+[elements.D1]
+type = "diode"
+nodes = ["k", "gnd"]
+forward_voltage = "vf"
+resistance = "rd"
+{cases}
+"""
+
+
+def test_a_further_key_on_a_parameter_a_case_changes_is_a_warning():
+    # only main values are evaluated again per case: the reader must be told
+    changed = calcdoc.loads(
+        FURTHER_KEY.format(cases='[[cases]]\nname = "hot"\nset = { vf = "0.6 V" }')
+    )
+    assert len(changed.warnings) == 1
+    w = changed.warnings[0]
+    assert w.startswith("elements.D1.resistance: uses parameter 'rd'") and "case 'hot'" in w
+    # the main value (forward_voltage) follows the parameter: no warning for it,
+    # and none at all when nothing changes the parameter
+    assert calcdoc.loads(FURTHER_KEY.format(cases="")).warnings == ()
