@@ -39,6 +39,7 @@ def open_findings(results) -> tuple[str, ...]:
     hist = stage(results, "history")
     if hist is not None:
         out += [f"Revision history {f.severity}: {f.message} ({f.key})" for f in hist.findings]
+    out += [f"Input warning: {w}" for w in results.project.warnings]
     for c in results.cases:
         out += [f"Solver warning, case {case_label(c.name)}: {w}" for w in c.solution.warnings]
     return tuple(out)
