@@ -22,8 +22,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from calcdoc.mna.batch import adjoint, factor, output_gradient, parameter_jacobian, patterns
-from calcdoc.model.load import parse_output
 from calcdoc.model.quantities import Quantity
+from calcdoc.model.read_sections import parse_output
 from calcdoc.model.values import element_values
 
 RESOLUTION = 1e-12  # an output below this share of the largest of its kind counts as zero

@@ -20,8 +20,8 @@ import numpy as np
 
 from calcdoc.mna.batch import patterns
 from calcdoc.mna.stated import StateSolver
-from calcdoc.model.load import parse_output
 from calcdoc.model.quantities import Quantity
+from calcdoc.model.read_sections import parse_output
 from calcdoc.model.values import element_values
 
 

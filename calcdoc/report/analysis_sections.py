@@ -10,7 +10,7 @@ from reportlab.lib import colors
 from reportlab.platypus import Flowable, Spacer
 
 from calcdoc.format import UNITS, eng, number, percent, signed
-from calcdoc.model.load import parse_output
+from calcdoc.model.read_sections import parse_output
 from calcdoc.report.access import stage
 from calcdoc.report.layout import Layout
 from calcdoc.report.words import case_label, check_id_label, check_label, place

@@ -10,7 +10,8 @@ from command_helpers import ROOT, run_calcdoc, unprivileged
 from pypdf import PdfReader
 
 from calcdoc.model.elements import KINDS, RATING_KEYS, element_keys
-from calcdoc.model.load import DOCUMENT_KEYS, TOP_KEYS
+from calcdoc.model.load import TOP_KEYS
+from calcdoc.model.read_sections import DOCUMENT_KEYS
 
 ELEMENT_KEYS = {k for kind in KINDS.values() for k in element_keys(kind)}
 
