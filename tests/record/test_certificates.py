@@ -203,3 +203,31 @@ def test_no_key_usage_extension_means_no_restriction(tmp_path) -> None:
     assert usage_problem(_asn1(pem)) is None
     _p12, pem = make_signer(tmp_path, "Commitment Holder", usage=key_usage(content_commitment=True))
     assert usage_problem(_asn1(pem)) is None
+
+
+def test_a_certificate_expired_since_signing_is_a_note(
+    ca, built_package, tmp_path, capsys, monkeypatch
+) -> None:
+    # valid when it signed (RFC 5280 4.1.2.5 judges validity at the signing time),
+    # expired by the time the package is checked: worth saying, not a failure
+    import datetime as dt
+
+    import calcdoc.record.signing as signing
+
+    p12, pem = make_signer(tmp_path, "Kim Keyholder", issuer=ca[:2], usage=SIGNING_BITS)
+    signed = foreign_sign(built_package.pdf, p12, **_kept(built_package))
+    expiry = x509.load_pem_x509_certificate(pem.read_bytes()).not_valid_after_utc
+
+    class Later(dt.datetime):  # the checker's clock, 60 days on (the leaf lives 30)
+        @classmethod
+        def now(cls, tz=None):
+            return dt.datetime.now(tz) + 60 * DAY
+
+    monkeypatch.setattr(signing, "datetime", Later)
+    code, out = _verify(tmp_path, signed, capsys, ca[2])
+    assert code == 0, out
+    assert (
+        "NOTE The certificate of Kim Keyholder was valid at the signing time but has expired "
+        f"since ({expiry:%Y-%m-%d}); the signing time is the signer's own statement, "
+        "not a timestamp."
+    ) in " ".join(out.split())

@@ -142,6 +142,7 @@ def test_signed_package_verifies_with_trusted_ca(signed_package, record_pki) -> 
     ]
     assert [f.status for f in v.findings] == ["pass"] * 7
     assert SIGNER_NAME in v.findings[0].message
+    assert v.findings[0].message.endswith(": intact, covers the whole file.")
     assert v.input_sha256 == DEMO_SHA
 
 
@@ -157,7 +158,9 @@ def test_untrusted_signer_fails(signed_package, record_pki) -> None:
     v = verify_package(signed_package, [record_pki.other_pem_path.read_bytes()])
     assert not v.ok
     assert v.first_failure.topic == "identity"
-    assert "not trusted" in v.first_failure.message
+    assert v.first_failure.message.startswith(f"The signer {SIGNER_NAME} of ")
+    # the reason, not a stand-in: the chain does not reach the certificate given as trusted
+    assert "is not trusted: the certificate does not chain to" in v.first_failure.message
 
 
 def test_flipped_byte_fails(signed_package, record_pki) -> None:
@@ -251,6 +254,38 @@ def test_first_difference_tolerances() -> None:
     assert first_difference({"a": 1}, {"a": 1, "b": 2}, absent=absent) is None
     assert absent == ["b"]
     assert "have 'b'" in first_difference({"a": 1, "b": 2}, {"a": 1}, absent=[])
+
+
+def test_first_difference_shapes_and_infinities() -> None:
+    # a list where a table was expected is a difference at that key, not inside it
+    assert first_difference({"v": [1]}, {"v": {"a": 1}}) == "v: embedded [1], recomputed {'a': 1}"
+    # a tampered results.json may carry Infinity (JSON never does from calcdoc): equal
+    # infinities agree, an infinity against a number does not
+    inf = float("inf")
+    assert first_difference({"v": inf}, {"v": inf}) is None
+    assert first_difference({"v": inf}, {"v": 1.0}) == "v: embedded inf, recomputed 1.0"
+    assert (
+        first_difference({"v": [1.0, 2.0]}, {"v": [1.0]}) == "v: embedded 2 entries, recomputed 1"
+    )
+
+
+def test_keys_a_fresh_solve_adds_are_listed_not_compared(built_package) -> None:
+    dropped = ("residual", "condition", "error_estimate", "refinement_steps")
+
+    def older(data: bytes) -> bytes:  # as if built by a calcdoc that did not give these
+        doc = json.loads(data)
+        for key in dropped:
+            del doc["cases"][0]["solver"][key]
+        return json.dumps(doc).encode()
+
+    v = verify_package(replace_attachment(built_package.pdf, "results.json", older))
+    notes = [f.message for f in v.findings if f.topic == "results" and f.status == "note"]
+    first = "cases[nominal].solver"
+    assert notes == [
+        f"A fresh solve also gives {first}.residual, {first}.condition, "
+        f"{first}.error_estimate and 1 more, which the embedded results do not contain "
+        "(not compared)."
+    ]
 
 
 # ---------------------------------------------------------------- command line
