@@ -230,8 +230,7 @@ class _Emitter:
             return Triplets(e, e, np.zeros(0), e, e, e)
         t = Triplets(*(np.concatenate([p[i] for p in self.parts]) for i in range(6)))
         t = t.take((t.row >= 0) & (t.col >= 0))
-        order = np.argsort(t.row * (int(t.elem.max(initial=0)) + 1) + t.elem, kind="stable")
-        return t.take(order)
+        return t.take(np.lexsort((t.elem, t.row)))
 
 
 def _split(code: np.ndarray, count: int) -> list[np.ndarray]:
@@ -263,12 +262,13 @@ def structure(net: Netlist) -> Structure:
     if cached is not None and cached[0] is net:
         return cached[1]
     st = _structure(net)
-    if len(_CACHE) > 8:
+    if len(_CACHE) > CACHE_SIZE:
         _CACHE.clear()
     _CACHE[id(net)] = (net, st)
     return st
 
 
+CACHE_SIZE = 8  # structures kept for the netlists last seen (a case run asks for one several times)
 _CACHE: dict[int, tuple[Netlist, Structure]] = {}
 
 
