@@ -206,3 +206,17 @@ sensitivity = ["R2.voltage"]
     assert dict((n, v) for n, _, v in s.ranked) == pytest.approx(
         {"V1": 1.0, "R1": -1 / 3, "R2": 1 / 3}, rel=1e-9, abs=0
     )
+
+
+def test_unexcited_circuit_has_zero_outputs_and_no_sensitivity():
+    # With its only source at 0 V the linear circuit carries no voltage or current
+    # anywhere, and a 1 % change of any value (3 kΩ, 1 kΩ, or 0 V → 0 V) leaves it so
+    # (superposition; common practice, no source).  The outputs are zero against a
+    # zero scale: absolute measure, nothing listed, no NaN.
+    unexcited = [("V1", "voltage_source", ("in", "gnd"), "0 V"), *DIVIDER[1:]]
+    p = calcdoc.loads(
+        project_text(unexcited, extra='[analysis]\nsensitivity = ["out", "R1.current"]\n')
+    )
+    for s in items(p).values():
+        assert s.value == 0.0 and s.measure == "absolute"
+        assert s.ranked == () and s.absolute == ()
