@@ -58,6 +58,9 @@ from calcdoc.verify.checks import RATINGS, range_check
 QUANTITIES = ("voltage", "current", "power")
 MC_CHUNK = 20_000
 LISTED_SETS = 4096  # value sets up to which each one's state-search pivots are listed
+# a node whose samples spread less than this share of its largest magnitude is taken as
+# fixed (rounding, not variation) and gets no histogram
+ROUNDING_SPREAD = 1e-9
 
 
 @dataclass(frozen=True)
@@ -186,11 +189,11 @@ def _matrix(batch: Batch, keys) -> np.ndarray:
     cols = []
     for kind, idx in keys:
         cols.append(batch.output(kind, idx))
-    return np.stack(cols, axis=1) if cols else np.zeros((len(batch.x), 0))
+    return np.stack(cols, axis=1)  # never empty: every node but the reference is a key
 
 
 def _vertices(q: int, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    bits = np.array(list(itertools.product((0, 1), repeat=q)), dtype=bool)
+    bits = np.array(list(itertools.product((False, True), repeat=q)))
     return np.where(bits, hi, lo)
 
 
@@ -571,7 +574,7 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
                 tuple(delta[kmin].tolist()),
                 tuple(delta[kmax].tolist()),
                 float(col.mean()),
-                float(col.std(ddof=1)) if K > 1 else 0.0,
+                float(col.std(ddof=1)),  # K ≥ 10 (analysis.samples)
                 float(np.percentile(col, 1)),
                 float(np.percentile(col, 99)),
                 "samples",
@@ -584,7 +587,7 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
         label = f"{K} samples (sample extremes)"
 
         def spread(col: np.ndarray) -> bool:  # more than rounding (an ideal short's node is not)
-            return float(np.ptp(col)) > 1e-9 * max(float(np.max(np.abs(col))), 1e-300)
+            return float(np.ptp(col)) > ROUNDING_SPREAD * float(np.max(np.abs(col)))
 
         varying = [k for k in range(1, len(net.nodes)) if spread(Y[:, keys.index(("node", k))])]
         if varying:
@@ -596,13 +599,14 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
         ext = {}
         for o, key in enumerate(keys):
             slope = G[:, o]
+            # lo ≤ 0 ≤ hi (tolerances are non-negative shares): up ≥ 0 ≥ down
             up = np.maximum(slope * hi, slope * lo)
             down = np.minimum(slope * hi, slope * lo)
             y = float(nom[o])
             ext[key] = Extreme(
                 y,
-                y - float(np.sqrt(np.sum(np.minimum(down, 0) ** 2))),
-                y + float(np.sqrt(np.sum(np.maximum(up, 0) ** 2))),
+                y - float(np.sqrt(np.sum(down**2))),
+                y + float(np.sqrt(np.sum(up**2))),
                 tuple(np.where(slope < 0, hi, lo).tolist()),
                 tuple(np.where(slope >= 0, hi, lo).tolist()),
                 how="first order",

@@ -79,3 +79,16 @@ outputs = ["a", "D1.current"]
     assert searched == [False] * 6 + [True] + [False] * 4
     crossing = [c for c in sw.crossings if c.check == "D1.current"]
     assert not crossing  # 1 mA is never reached: (10 − 0.7)/6200 − 0.7 mA = 0.8 mA
+
+
+@pytest.mark.parametrize(("limit", "listed"), [(4, True), (3, False)])
+def test_pivots_per_value_set_listed_up_to_the_documented_limit(monkeypatch, limit, listed):
+    # The extreme method solves the 4 vertices of the two resistors' box; each set's
+    # state-search pivots are listed when there are at most LISTED_SETS sets
+    # (calcdoc.analysis.tolerance), totals only above.
+    from calcdoc.analysis import tolerance
+
+    monkeypatch.setattr(tolerance, "LISTED_SETS", limit)
+    tol = results('[analysis]\ntolerance = "extreme"\n').extra["tolerance"].per_case[0]
+    assert tol.state_changes == 1
+    assert len(tol.set_iterations) == (4 if listed else 0)

@@ -391,3 +391,45 @@ tolerance = "extreme"
     m = t.nodes["m"]  # V(m) = 1 kΩ·(1 − β)·1 mA: monotone, ±0.1 V at the vertices
     assert (m.min, m.max) == pytest.approx((-0.1, 0.1), rel=1e-12, abs=0)
     assert m.how == "vertices, proved"
+
+
+def test_histogram_skips_a_node_held_at_zero():
+    # Node a is held at 0 V by an ideal source in every sample, so it does not vary;
+    # b carries 1 mA into 1 kΩ ± 1 % and does (V(b) = 1 V ± 10 mV, Ohm's law).  The
+    # histogram is of the first node that varies: b.
+    t = result(
+        calcdoc.loads("""
+[elements.V0]
+type = "voltage_source"
+nodes = ["a", "gnd"]
+value = "0 V"
+[elements.I1]
+type = "current_source"
+nodes = ["a", "b"]
+value = "1 mA"
+[elements.R1]
+type = "resistor"
+nodes = ["b", "a"]
+value = "1 kohm"
+tolerance = "1 %"
+[analysis]
+tolerance = "montecarlo"
+samples = 50
+seed = 2
+""")
+    )
+    a = t.nodes["a"]
+    assert (a.min, a.max) == (0.0, 0.0)
+    b = t.nodes["b"]
+    assert 0.99 <= b.min < b.max <= 1.01
+    assert t.histogram is not None and t.histogram[0] == "V(b)"
+    assert sum(t.histogram[2]) == 50
+
+
+@pytest.mark.parametrize("method", ["extreme", "montecarlo", "rss"])
+def test_a_circuit_without_devices_reports_no_state_search(method):
+    # Resistors and sources only: no element has states, so no value set changes
+    # state, the state search makes no pivot and no set's pivots are listed.
+    t = result(divider(method=method, extra="samples = 20" if method == "montecarlo" else ""))
+    assert (t.state_changes, t.state_iterations, t.set_iterations) == (0, 0, ())
+    assert "another state" not in t.note
