@@ -136,7 +136,7 @@ def kvl_loops(net: Netlist, br: Branches) -> LoopCheck:
     listed = len(net.names) <= LOOP_LISTING_LIMIT
     loops = []
     if not listed:
-        worst = float(np.max(np.abs(sums))) if len(sums) else 0.0
+        worst = float(np.max(np.abs(sums), initial=0.0))
         names = tuple(net.names[c] for c in chords.tolist())
         return LoopCheck((), False, worst, names, tuple(sums.tolist()))
     for c in chords.tolist():
@@ -170,7 +170,7 @@ def kvl_loops(net: Netlist, br: Branches) -> LoopCheck:
             total = float(sum(terms))
         names = tuple(net.names[j] for j in els)
         loops.append(Loop(net.names[c], names, tuple(signs), total, terms))
-    worst = max((abs(lp.sum) for lp in loops), default=0.0)
+    worst = float(np.max(np.abs([lp.sum for lp in loops]), initial=0.0))
     return LoopCheck(tuple(loops), listed, worst)
 
 
