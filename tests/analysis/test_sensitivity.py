@@ -220,3 +220,21 @@ def test_unexcited_circuit_has_zero_outputs_and_no_sensitivity():
     for s in items(p).values():
         assert s.value == 0.0 and s.measure == "absolute"
         assert s.ranked == () and s.absolute == ()
+
+
+def test_ranking_floor_is_relative_to_the_normalised_values():
+    # 10 mV across a 1 µΩ joint: I = V/R = 10 kA, so S(V1) = +1 and S(R1) = −1
+    # (I = V/R, closed form), while the raw derivative ∂I/∂R = −V/R² is −1e10 A/Ω.
+    # Both dependences are listed: the floor for rounding is a share of the largest
+    # *normalised* value, whatever the units of the raw derivatives.
+    shunt = [
+        ("V1", "voltage_source", ("a", "gnd"), "10 mV"),
+        ("R1", "resistor", ("a", "gnd"), "1 uohm"),
+    ]
+    p = calcdoc.loads(project_text(shunt, extra='[analysis]\nsensitivity = ["R1.current"]\n'))
+    s = items(p)["R1.current"]
+    assert s.value == pytest.approx(1e4, rel=1e-12, abs=0) and s.measure == "normalised"
+    assert dict((n, v) for n, _, v in s.ranked) == pytest.approx(
+        {"V1": 1.0, "R1": -1.0}, rel=1e-9, abs=0
+    )
+    assert dict(s.absolute)["R1"] == pytest.approx(-1e10, rel=1e-9, abs=0)
