@@ -248,7 +248,7 @@ def _det_signs_agree(st, P: np.ndarray) -> bool:
     vals = st.A.values(st.extended(P))
     A = np.asarray((W.T @ vals.T).T).reshape(-1, n, n)
     signs = np.linalg.slogdet(A)[0]
-    return bool(np.all(signs == signs[0]) and signs[0] != 0)
+    return bool(np.all(signs == 1) or np.all(signs == -1))
 
 
 # --------------------------------------------------------------------------

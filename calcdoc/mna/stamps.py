@@ -235,9 +235,7 @@ class _Emitter:
 
 def _split(code: np.ndarray, count: int) -> list[np.ndarray]:
     """Element indices of each code, in element order."""
-    order = np.argsort(code, kind="stable")
-    bounds = np.searchsorted(code[order], np.arange(count + 1))
-    return [order[bounds[c] : bounds[c + 1]] for c in range(count)]
+    return [np.flatnonzero(code == c) for c in range(count)]
 
 
 def _key_index(net: Netlist, J: np.ndarray, key: str, more_index: dict) -> np.ndarray:
@@ -490,12 +488,11 @@ def law_residual(st: Structure, x: np.ndarray, p: np.ndarray) -> np.ndarray:
     def coef(c: Coef, g: Group) -> np.ndarray:
         return c.sign * (p[g.param[c.key]] if c.key else np.ones(len(g.elements), dtype=dtype))
 
-    ctrl_nodes = {j: pm for j, pm in net.control_nodes.items()}
     for g in st.groups:
         J, law = g.elements, g.law
         v = nv[net.a[J]] - nv[net.b[J]]
         if g.control == "nodes":
-            cpm = np.array([ctrl_nodes[int(j)] for j in J], dtype=np.int64).reshape(-1, 2)
+            cpm = np.array([net.control_nodes[int(j)] for j in J], dtype=np.int64)  # (len(J), 2)
             u = nv[cpm[:, 0]] - nv[cpm[:, 1]]
         elif g.control == "element":
             u = x[st.col[[net.control_element[int(j)] for j in J]]]

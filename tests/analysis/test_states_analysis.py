@@ -92,3 +92,18 @@ def test_pivots_per_value_set_listed_up_to_the_documented_limit(monkeypatch, lim
     tol = results('[analysis]\ntolerance = "extreme"\n').extra["tolerance"].per_case[0]
     assert tol.state_changes == 1
     assert len(tol.set_iterations) == (4 if listed else 0)
+
+
+def test_node_window_checks_name_the_states_of_their_own_extreme():
+    # V(a) is lowest with R1 high and R2 low, diode blocking: 5·950/(6510 + 950);
+    # highest where the diode conducts and clamps it at 0.7 V (closed forms above).
+    # Each bound's worst-case check names the device states of its own extreme.
+    res = results(
+        '[limits.nodes.a]\nmin = "0.6 V"\nmax = "0.75 V"\n[analysis]\ntolerance = "extreme"\n'
+    )
+    checks = {c.id: c for c in res.extra["tolerance"].per_case[0].checks}
+    low, high = checks["nodes.a.min"], checks["nodes.a.max"]
+    assert low.value == pytest.approx(5 * 950 / (6510 + 950), rel=1e-12)
+    assert "conducting" not in low.basis
+    assert high.value == pytest.approx(0.7, rel=1e-12)
+    assert high.basis.endswith("; there D1 conducting")

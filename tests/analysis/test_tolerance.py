@@ -189,6 +189,42 @@ value = "1 kohm"
     assert o.min == pytest.approx(2.7 * vout(3030, 990), rel=1e-12, abs=0)
 
 
+def test_controlled_source_with_a_negative_determinant_is_proved():
+    # 1 mA into Ra (1 kΩ ± 5 %), a VCVS E1 = µ·V(a) (µ = 3 ± 10 %) into Ro: V(o) =
+    # µ·I·Ra (hand solution).  Unknowns V(a), V(o), I(E1): the source's row and column
+    # make the MNA determinant −1/Ra at every vertex (expanded by hand along I(E1)),
+    # one sign over the box, so the vertices are proved to hold the extremes.
+    t = result(
+        calcdoc.loads("""
+[elements.I1]
+type = "current_source"
+nodes = ["gnd", "a"]
+value = "1 mA"
+[elements.Ra]
+type = "resistor"
+nodes = ["a", "gnd"]
+value = "1 kohm"
+tolerance = "5 %"
+[elements.E1]
+type = "vcvs"
+nodes = ["o", "gnd"]
+gain = "3"
+control = ["a", "gnd"]
+tolerance = "10 %"
+[elements.Ro]
+type = "resistor"
+nodes = ["o", "gnd"]
+value = "1 kohm"
+[analysis]
+tolerance = "extreme"
+""")
+    )
+    o = t.nodes["o"]
+    assert o.how == "vertices, proved"
+    assert o.max == pytest.approx(3.3 * 1e-3 * 1050, rel=1e-12, abs=0)
+    assert o.min == pytest.approx(2.7 * 1e-3 * 950, rel=1e-12, abs=0)
+
+
 def test_vertices_picked_by_gradient_signs_above_the_limit(monkeypatch):
     # Three toleranced resistors, vertices picked by gradient signs (the limit
     # set to 2). By hand, every sign pattern of the 8 occurs among the outputs:
