@@ -32,7 +32,7 @@ import numpy as np
 from calcdoc.errors import SingularCircuitError
 from calcdoc.mna.stamps import Structure
 
-SMALL = 2000  # elements: below this, plain Python graph code (scipy takes ~0.3 s to import)
+SMALL = 2000  # elements: up to this, plain Python graph code (scipy takes ~0.3 s to import)
 
 
 def name_list(items: list[str], most: int = 12) -> str:
