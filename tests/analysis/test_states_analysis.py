@@ -107,3 +107,23 @@ def test_node_window_checks_name_the_states_of_their_own_extreme():
     assert "conducting" not in low.basis
     assert high.value == pytest.approx(0.7, rel=1e-12)
     assert high.basis.endswith("; there D1 conducting")
+
+
+def test_a_window_across_two_nodes_at_its_worst_extreme():
+    # V(in) − V(a) across R1: 5 V less V(a), so 5 − 0.7 = 4.3 V where the diode clamps
+    # (lowest) and 5 − 5·950/7460 V with R1 high, R2 low, diode blocking (highest);
+    # closed forms above.  The 4.35 V minimum is broken at the clamp, and the check
+    # names the state there.
+    res = results(
+        '[[limits.across]]\nname = "drop"\nnodes = ["in", "a"]\nmin = "4.35 V"\nmax = "4.5 V"\n'
+        '[analysis]\ntolerance = "extreme"\n'
+    )
+    tol = res.extra["tolerance"].per_case[0]
+    drop = tol.across["drop"]
+    assert drop.min == pytest.approx(4.3, rel=1e-12)
+    assert drop.max == pytest.approx(5 - 5 * 950 / 7460, rel=1e-12)
+    assert dict(drop.min_states) == {"D1": "conducting"} and drop.max_states == ()
+    check = {c.id: c for c in tol.checks}["across.drop"]
+    assert check.value == pytest.approx(4.3, rel=1e-12) and not check.passed
+    assert check.margin == pytest.approx(-0.05, rel=1e-9)
+    assert check.basis.endswith("; there D1 conducting")

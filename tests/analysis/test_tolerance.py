@@ -469,3 +469,30 @@ def test_a_circuit_without_devices_reports_no_state_search(method):
     t = result(divider(method=method, extra="samples = 20" if method == "montecarlo" else ""))
     assert (t.state_changes, t.state_iterations, t.set_iterations) == (0, 0, ())
     assert "another state" not in t.note
+
+
+def test_histogram_of_a_microvolt_node():
+    # 1 nA into 1 kΩ ± 1 %: V(a) = 1 µV ± 10 nV (Ohm's law).  A spread of a hundredth
+    # of the node's own value is variation, however small the volts: it gets the
+    # histogram.
+    t = result(
+        calcdoc.loads("""
+[elements.I1]
+type = "current_source"
+nodes = ["gnd", "a"]
+value = "1 nA"
+[elements.R1]
+type = "resistor"
+nodes = ["a", "gnd"]
+value = "1 kohm"
+tolerance = "1 %"
+[analysis]
+tolerance = "montecarlo"
+samples = 50
+seed = 2
+""")
+    )
+    a = t.nodes["a"]
+    assert 0.99e-6 <= a.min < a.max <= 1.01e-6
+    assert t.histogram is not None and t.histogram[0] == "V(a)"
+    assert sum(t.histogram[2]) == 50
