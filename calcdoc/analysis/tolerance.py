@@ -69,6 +69,10 @@ SEARCH_GTOL = 1e-14
 # a vertex flip, or the local search's point, replaces the best so far only when it
 # improves on it by more than this share of it (less is rounding in the solves)
 CLIMB_GAIN = 1e-15
+# step of the central differences that turn deviations into parameter directions
+# (exact for element values, which are affine in their deviation; for parameters
+# through expressions the truncation error goes as the step squared)
+DIRECTION_STEP = 1e-6
 SEARCH_GAIN = 1e-12
 
 
@@ -293,7 +297,7 @@ def _gradients(runs: _Runs, var: Variation, delta: np.ndarray, keys) -> np.ndarr
     st = runs.st
     p = var.params(st, delta[None])[0]
     q = len(delta)
-    h = 1e-6
+    h = DIRECTION_STEP
     # directions: change of the parameters per unit change of each deviation (central)
     base = np.tile(delta, (q, 1))
     dirs = (var.params(st, base + h * np.eye(q)) - var.params(st, base - h * np.eye(q))) / (2 * h)
