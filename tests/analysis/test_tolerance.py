@@ -496,3 +496,14 @@ seed = 2
     assert 0.99e-6 <= a.min < a.max <= 1.01e-6
     assert t.histogram is not None and t.histogram[0] == "V(a)"
     assert sum(t.histogram[2]) == 50
+
+
+def test_a_toleranced_source_is_proved_at_the_vertices():
+    # 10 V ± 5 % into the 3 kΩ / 1 kΩ divider (± 1 %): V(out) = V·R2/(R1 + R2) is
+    # linear in V and monotone in each resistance (closed form), and V enters only
+    # the right-hand side, so the vertices are proved to hold the extremes.
+    text = divider().source.decode().replace('value = "10 V"', 'value = "10 V"\ntolerance = "5 %"')
+    out = result(calcdoc.loads(text)).nodes["out"]
+    assert out.how == "vertices, proved"
+    assert out.max == pytest.approx(vout(2970, 1010, 10.5), rel=1e-12, abs=0)
+    assert out.min == pytest.approx(vout(3030, 990, 9.5), rel=1e-12, abs=0)
