@@ -256,18 +256,26 @@ def structure(net: Netlist) -> Structure:
     >>> s.unknowns(), s.n
     (('V(in)', 'V(out)', 'I(V1)'), 3)
     """
-    cached = _CACHE.get(id(net))
-    if cached is not None and cached[0] is net:
-        return cached[1]
+    hit = _CACHE.get(id(net))
+    if hit is not None and hit.net is net:  # an id is reused once its netlist is gone
+        return hit.structure
     st = _structure(net)
     if len(_CACHE) > CACHE_SIZE:
         _CACHE.clear()
-    _CACHE[id(net)] = (net, st)
+    _CACHE[id(net)] = _Cached(net, st)
     return st
 
 
 CACHE_SIZE = 8  # structures kept for the netlists last seen (a case run asks for one several times)
-_CACHE: dict[int, tuple[Netlist, Structure]] = {}
+
+
+@dataclass(frozen=True)
+class _Cached:
+    net: Netlist
+    structure: Structure
+
+
+_CACHE: dict[int, _Cached] = {}
 
 
 def _structure(net: Netlist) -> Structure:
