@@ -27,6 +27,11 @@ from calcdoc.model.read_sections import parse_output
 from calcdoc.model.values import element_values
 
 RESOLUTION = 1e-12  # an output below this share of the largest of its kind counts as zero
+# a dependence below this share of the largest is rounding in the derivatives, not a sensitivity
+DEPENDENCE_FLOOR = 1e-9
+# relative step of the central differences for parameters: truncation error grows as the
+# step squared, rounding error as eps over the step; 1e-6 keeps both near 1e-10 to 1e-12
+PARAMETER_STEP = 1e-6
 
 
 @dataclass(frozen=True)
@@ -71,7 +76,7 @@ def _scale(br, kind: str) -> float:
         "current": br.current,
         "power": br.power,
     }[kind]
-    return float(np.max(np.abs(arr))) if len(arr) else 0.0
+    return float(np.max(np.abs(arr)))  # never empty: the reference node, one element at least
 
 
 def _parameter_derivatives(project, case_result, names) -> dict[str, tuple[float, np.ndarray]]:
@@ -81,7 +86,7 @@ def _parameter_derivatives(project, case_result, names) -> dict[str, tuple[float
         base = float(prm.value.magnitude)
         if base == 0:
             continue
-        h = abs(base) * 1e-6
+        h = abs(base) * PARAMETER_STEP
         vals = []
         for t in (base + h, base - h):
             v = element_values(
@@ -122,7 +127,7 @@ def sensitivities(project, case_result, outputs=None, closed=None) -> tuple[Sens
                 [float(sympy.diff(expr, sympy.Symbol(nm)).subs(subs)) for nm in net.names]
             )
             method = "closed form"
-        zero = abs(y) <= RESOLUTION * max(_scale(case_result.branches, kind), 1e-300)
+        zero = abs(y) <= RESOLUTION * _scale(case_result.branches, kind)
         measure = "absolute" if zero else "normalised"
 
         def rank(g: float, base: float, zero=zero, y=y) -> float:
@@ -135,9 +140,8 @@ def sensitivities(project, case_result, outputs=None, closed=None) -> tuple[Sens
         for pname, (base, d) in dpar.items():
             g = float(dydv @ d)
             items.append((pname, "parameter", rank(g, base), g))
-        big = max((abs(it[2]) for it in items), default=0.0)
-        # a dependence below 1e-9 of the largest is rounding in the derivatives, not a sensitivity
-        items = [it for it in items if it[3] != 0.0 and abs(it[2]) >= 1e-9 * big]
+        big = max(abs(it[2]) for it in items)  # one element at least
+        items = [it for it in items if abs(it[2]) > DEPENDENCE_FLOOR * big]
         items.sort(key=lambda t: -abs(t[2]))
         out.append(
             Sensitivity(

@@ -58,6 +58,22 @@ from calcdoc.verify.checks import RATINGS, range_check
 QUANTITIES = ("voltage", "current", "power")
 MC_CHUNK = 20_000
 LISTED_SETS = 4096  # value sets up to which each one's state-search pivots are listed
+# a node whose samples spread less than this share of its largest magnitude is taken as
+# fixed (rounding, not variation) and gets no histogram
+ROUNDING_SPREAD = 1e-9
+# the bounded local search for interior extrema (L-BFGS-B): at most this many steps,
+# stopping when the objective or the projected gradient changes by less than these
+SEARCH_STEPS = 60
+SEARCH_FTOL = 1e-15
+SEARCH_GTOL = 1e-14
+# a vertex flip, or the local search's point, replaces the best so far only when it
+# improves on it by more than this share of it (less is rounding in the solves)
+CLIMB_GAIN = 1e-15
+# step of the central differences that turn deviations into parameter directions
+# (exact for element values, which are affine in their deviation; for parameters
+# through expressions the truncation error goes as the step squared)
+DIRECTION_STEP = 1e-6
+SEARCH_GAIN = 1e-12
 
 
 @dataclass(frozen=True)
@@ -186,11 +202,11 @@ def _matrix(batch: Batch, keys) -> np.ndarray:
     cols = []
     for kind, idx in keys:
         cols.append(batch.output(kind, idx))
-    return np.stack(cols, axis=1) if cols else np.zeros((len(batch.x), 0))
+    return np.stack(cols, axis=1)  # never empty: every node but the reference is a key
 
 
 def _vertices(q: int, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    bits = np.array(list(itertools.product((0, 1), repeat=q)), dtype=bool)
+    bits = np.array(list(itertools.product((False, True), repeat=q)))
     return np.where(bits, hi, lo)
 
 
@@ -200,27 +216,21 @@ def _vertices(q: int, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
 
 
 def _rank_one_elements(st, var: Variation) -> bool:
-    """Every toleranced quantity is an element value that enters A as a rank-one term
-    (or only z), and none is a parameter shared through expressions."""
+    """Every toleranced quantity is an element value that enters A alone or z alone,
+    and none is a parameter shared through expressions.
+
+    In A an element's value is always a rank-one term: the element's law puts
+    it either in the element's own row (as a coefficient of v, i or the
+    control u) or as the outer product of the terminal rows with the
+    terminal or control columns (a conductance, a controlled current).
+    """
     if any(q.kind != "element" for q in var.quantities):
         return False
-    names = st.net.names
     A, z = st.A, st.z
     for q in var.quantities:
-        k = names.index(q.name)
-        in_a = (A.num == k) | (A.den == k)
-        in_z = (z.num == k) | (z.den == k)
-        if in_a.any() and in_z.any():
+        k = st.net.names.index(q.name)
+        if ((A.num == k) | (A.den == k)).any() and ((z.num == k) | (z.den == k)).any():
             return False
-        if in_a.any():
-            rows, cols = A.row[in_a], A.col[in_a]
-            ur, uc = np.unique(rows), np.unique(cols)
-            block = np.zeros((len(ur), len(uc)))
-            vals = A.values(st.extended())[in_a]
-            np.add.at(block, (np.searchsorted(ur, rows), np.searchsorted(uc, cols)), vals)
-            s = np.linalg.svd(block, compute_uv=False)
-            if len(s) > 1 and s[1] > 1e-12 * s[0]:
-                return False
     return True
 
 
@@ -237,7 +247,7 @@ def _det_signs_agree(st, P: np.ndarray) -> bool:
     from calcdoc.model.elements import KINDS
 
     n = st.n
-    if n == 0 or not any(KINDS[t].control for t in st.net.types):
+    if not any(KINDS[t].control for t in st.net.types):
         return True
     if n > DENSE_UNKNOWNS:
         return False
@@ -245,7 +255,7 @@ def _det_signs_agree(st, P: np.ndarray) -> bool:
     vals = st.A.values(st.extended(P))
     A = np.asarray((W.T @ vals.T).T).reshape(-1, n, n)
     signs = np.linalg.slogdet(A)[0]
-    return bool(np.all(signs == signs[0]) and signs[0] != 0)
+    return bool(np.all(signs == 1) or np.all(signs == -1))
 
 
 # --------------------------------------------------------------------------
@@ -287,7 +297,7 @@ def _gradients(runs: _Runs, var: Variation, delta: np.ndarray, keys) -> np.ndarr
     st = runs.st
     p = var.params(st, delta[None])[0]
     q = len(delta)
-    h = 1e-6
+    h = DIRECTION_STEP
     # directions: change of the parameters per unit change of each deviation (central)
     base = np.tile(delta, (q, 1))
     dirs = (var.params(st, base + h * np.eye(q)) - var.params(st, base - h * np.eye(q))) / (2 * h)
@@ -324,7 +334,7 @@ def _local_search(
         jac=True,
         method="L-BFGS-B",
         bounds=list(zip(lo, hi, strict=True)),
-        options={"maxiter": 60, "ftol": 1e-15, "gtol": 1e-14},
+        options={"maxiter": SEARCH_STEPS, "ftol": SEARCH_FTOL, "gtol": SEARCH_GTOL},
     )
     return float(-sign * res.fun), np.clip(res.x, lo, hi)
 
@@ -384,7 +394,7 @@ def _extremes(runs: _Runs, var: Variation, keys, lo, hi, nominal_row):
                 if inward.any() and np.any(hi > lo):
                     searched += 1
                     val, pt = _local_search(runs, var, keys, o, at, sign, lo, hi)
-                    if sign * (val - best) > 1e-12 * max(abs(best), 1e-300):
+                    if sign * (val - best) > SEARCH_GAIN * abs(best):
                         best, at = val, pt
                         where = "inside" if np.any((pt > lo) & (pt < hi)) else "vertex"
                         changes = runs.changes_at(var.params(st, pt[None])[0])
@@ -407,7 +417,7 @@ def _vertex_climb(runs: _Runs, var, keys, o, at, best, sign, lo, hi):
         b, _ = runs.batch(var.params(runs.st, flips))
         vals = _matrix(b, [keys[o]])[:, 0]
         k = int(np.argmax(sign * vals))
-        if sign * (vals[k] - best) > 1e-15 * max(abs(best), 1e-300):
+        if sign * (vals[k] - best) > CLIMB_GAIN * abs(best):
             at, best, improved = flips[k], float(vals[k]), True
     return at, best
 
@@ -511,7 +521,7 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
     lo, hi = var.bounds()
     q = len(quantities)
     keys = _keys(net, project)
-    nominal_p = var.params(st, np.zeros((1, q)))
+    nominal_p = var.params(st, np.zeros(q)[None])
     nom = _matrix(runs.batch(nominal_p)[0], keys)[0]
     hist = None
     if a.tolerance == "extreme":
@@ -571,7 +581,7 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
                 tuple(delta[kmin].tolist()),
                 tuple(delta[kmax].tolist()),
                 float(col.mean()),
-                float(col.std(ddof=1)) if K > 1 else 0.0,
+                float(col.std(ddof=1)),  # K ≥ 10 (analysis.samples)
                 float(np.percentile(col, 1)),
                 float(np.percentile(col, 99)),
                 "samples",
@@ -584,7 +594,7 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
         label = f"{K} samples (sample extremes)"
 
         def spread(col: np.ndarray) -> bool:  # more than rounding (an ideal short's node is not)
-            return float(np.ptp(col)) > 1e-9 * max(float(np.max(np.abs(col))), 1e-300)
+            return float(np.ptp(col)) > ROUNDING_SPREAD * float(np.max(np.abs(col)))
 
         varying = [k for k in range(1, len(net.nodes)) if spread(Y[:, keys.index(("node", k))])]
         if varying:
@@ -596,13 +606,14 @@ def tolerance_result(project, case_result) -> ToleranceResult | None:
         ext = {}
         for o, key in enumerate(keys):
             slope = G[:, o]
+            # lo ≤ 0 ≤ hi (tolerances are non-negative shares): up ≥ 0 ≥ down
             up = np.maximum(slope * hi, slope * lo)
             down = np.minimum(slope * hi, slope * lo)
             y = float(nom[o])
             ext[key] = Extreme(
                 y,
-                y - float(np.sqrt(np.sum(np.minimum(down, 0) ** 2))),
-                y + float(np.sqrt(np.sum(np.maximum(up, 0) ** 2))),
+                y - float(np.sqrt(np.sum(down**2))),
+                y + float(np.sqrt(np.sum(up**2))),
                 tuple(np.where(slope < 0, hi, lo).tolist()),
                 tuple(np.where(slope >= 0, hi, lo).tolist()),
                 how="first order",

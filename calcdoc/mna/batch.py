@@ -24,6 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from calcdoc.mna.solve import DENSE_LIMIT
 from calcdoc.mna.stamps import Structure, Triplets, apply_map, float_system, structure
 from calcdoc.results import Netlist
 
@@ -163,7 +164,7 @@ def factor(st: Structure, p: np.ndarray | None = None) -> Factor:
     pe = st.extended(p if p is not None else None)
     rows, cols, vals, _ = float_system(st, pe)
     n = st.n
-    if n <= 400:
+    if n <= DENSE_LIMIT:  # the single solve's own choice of dense or sparse LU
         A = np.zeros((n, n))
         np.add.at(A, (rows, cols), vals)
         return Factor(A, None)
@@ -189,7 +190,7 @@ def tangents(st: Structure, p: np.ndarray, x: np.ndarray, dp: np.ndarray) -> Bat
     """First-order change of every output per unit of each direction in ``dp`` (q, P)."""
     dp = np.atleast_2d(dp)
     rhs = -residual_change(st, p, x, dp).T  # (n, q)
-    dx = factor(st, p).solve(rhs).T if st.n else np.zeros((len(dp), 0))
+    dx = factor(st, p).solve(rhs).T
     h = COMPLEX_STEP
     b = derive(st, p[None] + 1j * h * dp, x[None] + 1j * h * dx)
     return Batch(

@@ -32,7 +32,7 @@ import numpy as np
 from calcdoc.errors import SingularCircuitError
 from calcdoc.mna.stamps import Structure
 
-SMALL = 2000  # elements: below this, plain Python graph code (scipy takes ~0.3 s to import)
+SMALL = 2000  # elements: up to this, plain Python graph code (scipy takes ~0.3 s to import)
 
 
 def name_list(items: list[str], most: int = 12) -> str:
@@ -170,8 +170,8 @@ def _voltage_loops(st: Structure, A) -> None:
 
     adjacency: dict[int, list[tuple[int, int]]] = {}
     for j, law in enumerate(st.laws):
-        if law.v is None or law.i is not None or st.col[j] < 0:
-            continue
+        if law.v is None or law.i is not None:
+            continue  # not a voltage-fixing law (which always has a current unknown)
         u, v = int(net.a[j]), int(net.b[j])
         ru, rv = find(u), find(v)
         if ru == rv:
@@ -202,7 +202,7 @@ def _voltage_loops(st: Structure, A) -> None:
 
 def _path(adjacency: dict[int, list[tuple[int, int]]], start: int, goal: int) -> list[int]:
     """Element indices on the forest path from ``start`` to ``goal``."""
-    prev: dict[int, tuple[int, int]] = {start: (-1, -1)}
+    prev: dict[int, tuple[int, int] | None] = {start: None}
     queue = deque([start])
     while queue:
         x = queue.popleft()
@@ -215,7 +215,7 @@ def _path(adjacency: dict[int, list[tuple[int, int]]], start: int, goal: int) ->
     out = []
     x = goal
     while x != start:
-        x, e = prev[x]
+        x, e = prev[x]  # type: ignore[misc]
         out.append(e)
     return out[::-1]
 

@@ -52,6 +52,7 @@ EXACT_BITS = 4096  # numerator/denominator size above which exact elimination gi
 ERROR_WARNING = 1e-9  # estimated relative error of x above which a solution is warned
 SINGULAR = 1e16  # condition (equilibrated) at or above which a float system counts as singular
 MAX_REFINEMENT = 8
+SVD_NAMING_LIMIT = 3000  # unknowns: up to this a singular sparse system is named by a dense SVD
 
 __all__ = ["Solution", "solve", "DENSE_LIMIT", "EXACT_LIMIT", "ERROR_WARNING"]
 
@@ -60,10 +61,11 @@ class _TooBig(Exception):
     """Exact elimination outgrew EXACT_BITS."""
 
 
-def _exact_solve(A: list[list[Fraction]], z: list[Fraction]) -> list[Fraction] | list[Fraction]:
+def _exact_solve(A: list[list[Fraction]], z: list[Fraction]) -> list[Fraction]:
     """Gauss–Jordan in rationals.
 
-    Returns the solution, or raises :class:`_Singular` with a null vector.
+    Returns the solution, or raises :class:`_Singular` with the unknowns of
+    a null vector.
     """
     n = len(A)
     M = [row[:] + [z[i]] for i, row in enumerate(A)]
@@ -72,12 +74,9 @@ def _exact_solve(A: list[list[Fraction]], z: list[Fraction]) -> list[Fraction] |
     for c in range(n):
         p = next((i for i in range(r, n) if M[i][c] != 0), None)
         if p is None:
-            # column c is free: null vector x_c = 1, x_k = −M[row(k)][c] for pivot columns
-            null = [Fraction(0)] * n
-            null[c] = Fraction(1)
-            for k, row in pivot_row_of.items():
-                null[k] = -M[row][c]
-            raise _Singular(null)
+            # column c is free: the null vector x_c = 1, x_k = −M[row(k)][c] for the
+            # pivot columns involves c and the pivot columns with M[row(k)][c] ≠ 0
+            raise _Singular(sorted([c, *(k for k, row in pivot_row_of.items() if M[row][c] != 0)]))
         M[r], M[p] = M[p], M[r]
         piv = M[r][c]
         rowr = [v / piv for v in M[r]]
@@ -87,9 +86,7 @@ def _exact_solve(A: list[list[Fraction]], z: list[Fraction]) -> list[Fraction] |
                 f = M[i][c]
                 Mi = M[i]
                 M[i] = [vi - f * vr for vi, vr in zip(Mi, rowr, strict=True)]
-        big = max(
-            (max(v.numerator.bit_length(), v.denominator.bit_length()) for v in rowr), default=0
-        )
+        big = max(max(v.numerator.bit_length(), v.denominator.bit_length()) for v in rowr)
         if big > EXACT_BITS:
             raise _TooBig
         pivot_row_of[c] = r
@@ -98,8 +95,8 @@ def _exact_solve(A: list[list[Fraction]], z: list[Fraction]) -> list[Fraction] |
 
 
 class _Singular(Exception):
-    def __init__(self, null) -> None:
-        self.null = null
+    def __init__(self, involved: list[int]) -> None:
+        self.involved = involved
 
 
 def _singular(names: list[str], how: str) -> SingularCircuitError:
@@ -116,12 +113,15 @@ def _null_names(v: np.ndarray, names: tuple[str, ...]) -> list[str]:
     return [names[i] for i in np.flatnonzero(v > 1e-6 * v.max())]
 
 
+def _power_of_two(m: np.ndarray) -> np.ndarray:
+    """The power of two nearest 1/m; any for m = 0 (a zero row or column, singular anyway)."""
+    return np.exp2(-np.round(np.log2(np.where(m > 0, m, 1.0))))
+
+
 def _scaling(absA_rowmax, absA_colmax_fn):
     """Powers of two for row and column scaling."""
-    r = np.exp2(-np.round(np.log2(np.where(absA_rowmax > 0, absA_rowmax, 1.0))))
-    c = absA_colmax_fn(r)
-    c = np.exp2(-np.round(np.log2(np.where(c > 0, c, 1.0))))
-    return r, c
+    r = _power_of_two(absA_rowmax)
+    return r, _power_of_two(absA_colmax_fn(r))
 
 
 def solve(net: Netlist, *, keep_equations: bool | None = None) -> Solution:
@@ -158,9 +158,7 @@ def solve(net: Netlist, *, keep_equations: bool | None = None) -> Solution:
         try:
             got = _exact_solve(Aq, zq)
         except _Singular as s:
-            raise _singular(
-                [names[i] for i, v in enumerate(s.null) if v != 0], "exact rank"
-            ) from None
+            raise _singular([names[i] for i in s.involved], "exact rank") from None
         except _TooBig:
             notes.append(
                 f"exact elimination outgrew {EXACT_BITS}-bit numbers; solved in floating point"
@@ -200,6 +198,7 @@ def solve(net: Netlist, *, keep_equations: bool | None = None) -> Solution:
 def _refine(residual, solve_scaled, z: np.ndarray, x: np.ndarray, anorm: float):
     """Iterative refinement with the residual z − A·x in extended precision.
 
+    x has at least one entry (an empty system is answered before).
     ``residual(x)`` takes and returns extended-precision vectors.
     Returns (x, relative residual, estimated relative error, steps).
     """
@@ -208,8 +207,8 @@ def _refine(residual, solve_scaled, z: np.ndarray, x: np.ndarray, anorm: float):
     while True:
         r = residual(x.astype(np.longdouble))
         dx = solve_scaled(r.astype(float))
-        xn = float(np.max(np.abs(x))) if len(x) else 0.0
-        dn = float(np.max(np.abs(dx))) if len(dx) else 0.0
+        xn = float(np.max(np.abs(x)))
+        dn = float(np.max(np.abs(dx)))
         size = dn / xn if xn else dn
         if not np.isfinite(size):
             err = np.inf
@@ -224,9 +223,9 @@ def _refine(residual, solve_scaled, z: np.ndarray, x: np.ndarray, anorm: float):
             err = size
             break
     r = residual(x.astype(np.longdouble))
-    rn = float(np.max(np.abs(r))) if len(r) else 0.0
-    xn = float(np.max(np.abs(x))) if len(x) else 0.0
-    zn = float(np.max(np.abs(z))) if len(z) else 0.0
+    rn = float(np.max(np.abs(r)))
+    xn = float(np.max(np.abs(x)))
+    zn = float(np.max(np.abs(z)))
     denom = anorm * xn + zn
     return x, (rn / denom if denom else 0.0), float(err), steps
 
@@ -302,7 +301,7 @@ def _sparse_singular(As, c, names: tuple[str, ...]) -> SingularCircuitError:
     from scipy.sparse.csgraph import structural_rank
 
     n = len(names)
-    if n <= 3000:
+    if n <= SVD_NAMING_LIMIT:
         _, _, vt = np.linalg.svd(As.toarray())
         return _singular(_null_names(c * vt[-1], names), "numerical rank")
     rank = int(structural_rank(As))

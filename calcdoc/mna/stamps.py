@@ -230,15 +230,12 @@ class _Emitter:
             return Triplets(e, e, np.zeros(0), e, e, e)
         t = Triplets(*(np.concatenate([p[i] for p in self.parts]) for i in range(6)))
         t = t.take((t.row >= 0) & (t.col >= 0))
-        order = np.argsort(t.row * (int(t.elem.max(initial=0)) + 1) + t.elem, kind="stable")
-        return t.take(order)
+        return t.take(np.lexsort((t.elem, t.row)))
 
 
 def _split(code: np.ndarray, count: int) -> list[np.ndarray]:
     """Element indices of each code, in element order."""
-    order = np.argsort(code, kind="stable")
-    bounds = np.searchsorted(code[order], np.arange(count + 1))
-    return [order[bounds[c] : bounds[c + 1]] for c in range(count)]
+    return [np.flatnonzero(code == c) for c in range(count)]
 
 
 def _key_index(net: Netlist, J: np.ndarray, key: str, more_index: dict) -> np.ndarray:
@@ -259,17 +256,26 @@ def structure(net: Netlist) -> Structure:
     >>> s.unknowns(), s.n
     (('V(in)', 'V(out)', 'I(V1)'), 3)
     """
-    cached = _CACHE.get(id(net))
-    if cached is not None and cached[0] is net:
-        return cached[1]
+    hit = _CACHE.get(id(net))
+    if hit is not None and hit.net is net:  # an id is reused once its netlist is gone
+        return hit.structure
     st = _structure(net)
-    if len(_CACHE) > 8:
+    if len(_CACHE) > CACHE_SIZE:
         _CACHE.clear()
-    _CACHE[id(net)] = (net, st)
+    _CACHE[id(net)] = _Cached(net, st)
     return st
 
 
-_CACHE: dict[int, tuple[Netlist, Structure]] = {}
+CACHE_SIZE = 8  # structures kept for the netlists last seen (a case run asks for one several times)
+
+
+@dataclass(frozen=True)
+class _Cached:
+    net: Netlist
+    structure: Structure
+
+
+_CACHE: dict[int, _Cached] = {}
 
 
 def _structure(net: Netlist) -> Structure:
@@ -490,12 +496,11 @@ def law_residual(st: Structure, x: np.ndarray, p: np.ndarray) -> np.ndarray:
     def coef(c: Coef, g: Group) -> np.ndarray:
         return c.sign * (p[g.param[c.key]] if c.key else np.ones(len(g.elements), dtype=dtype))
 
-    ctrl_nodes = {j: pm for j, pm in net.control_nodes.items()}
     for g in st.groups:
         J, law = g.elements, g.law
         v = nv[net.a[J]] - nv[net.b[J]]
         if g.control == "nodes":
-            cpm = np.array([ctrl_nodes[int(j)] for j in J], dtype=np.int64).reshape(-1, 2)
+            cpm = np.array([net.control_nodes[int(j)] for j in J], dtype=np.int64)  # (len(J), 2)
             u = nv[cpm[:, 0]] - nv[cpm[:, 1]]
         elif g.control == "element":
             u = x[st.col[[net.control_element[int(j)] for j in J]]]

@@ -13,6 +13,7 @@ from calcdoc.results import Branches, Ledger, Loop, LoopCheck, Netlist
 
 LOOP_LISTING_LIMIT = 3000  # elements; above it loops are reported by chord only
 SMALL = 2000  # elements: up to this, the spanning tree in plain Python (no scipy import)
+LEDGER_LISTING_LIMIT = 5000  # elements; above it the ledger gives totals only (record size)
 
 
 def kcl_residuals(net: Netlist, br: Branches) -> np.ndarray:
@@ -42,7 +43,10 @@ def kcl_residuals(net: Netlist, br: Branches) -> np.ndarray:
 
 
 def _bfs(net: Netlist, n: int) -> tuple[np.ndarray, np.ndarray]:
-    """Breadth-first order from the reference and each node's predecessor (-9999 for none)."""
+    """Breadth-first order from the reference and each node's predecessor.
+
+    The reference's own entry is never read (it has no predecessor).
+    """
     if len(net.a) > SMALL:
         from scipy.sparse import coo_matrix
         from scipy.sparse.csgraph import breadth_first_order
@@ -55,7 +59,7 @@ def _bfs(net: Netlist, n: int) -> tuple[np.ndarray, np.ndarray]:
     for u, v in zip(net.a.tolist(), net.b.tolist(), strict=True):
         adj[u].append(v)
         adj[v].append(u)
-    pred = np.full(n, -9999, dtype=np.int64)
+    pred = np.zeros(n, dtype=np.int64)
     seen = [False] * n
     seen[0] = True
     order = [0]
@@ -87,7 +91,7 @@ def _tree(net: Netlist) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
     kids = order[1:]
     par = pred[kids]
     want = np.minimum(par, kids) * n + np.maximum(par, kids)
-    parent_edge = np.full(n, -1, dtype=np.int64)
+    parent_edge = np.zeros(n, dtype=np.int64)  # the reference's entry is never read
     parent_edge[kids] = sort[np.searchsorted(sorted_keys, want)]
     depth = np.zeros(n, dtype=np.int64)
     for k, p in zip(kids.tolist(), par.tolist(), strict=True):
@@ -126,13 +130,13 @@ def kvl_loops(net: Netlist, br: Branches) -> LoopCheck:
         down = a[j] == p
         phi[group] = np.where(down, phi[p] - law[j], phi[p] + law[j])
     in_tree = np.zeros(len(net.names), dtype=bool)
-    in_tree[pedge[pedge >= 0]] = True
+    in_tree[pedge[kids]] = True
     chords = np.flatnonzero(~in_tree)
     sums = law[chords] + phi[b[chords]] - phi[a[chords]]
     listed = len(net.names) <= LOOP_LISTING_LIMIT
     loops = []
     if not listed:
-        worst = float(np.max(np.abs(sums))) if len(sums) else 0.0
+        worst = float(np.max(np.abs(sums), initial=0.0))
         names = tuple(net.names[c] for c in chords.tolist())
         return LoopCheck((), False, worst, names, tuple(sums.tolist()))
     for c in chords.tolist():
@@ -166,7 +170,7 @@ def kvl_loops(net: Netlist, br: Branches) -> LoopCheck:
             total = float(sum(terms))
         names = tuple(net.names[j] for j in els)
         loops.append(Loop(net.names[c], names, tuple(signs), total, terms))
-    worst = max((abs(lp.sum) for lp in loops), default=0.0)
+    worst = float(np.max(np.abs([lp.sum for lp in loops]), initial=0.0))
     return LoopCheck(tuple(loops), listed, worst)
 
 
@@ -183,13 +187,14 @@ def power_ledger(net: Netlist, br: Branches) -> Ledger:
             (nv[int(a)] - nv[int(b)]) * i
             for a, b, i in zip(net.a, net.b, br.exact_current, strict=True)
         ]
-        absorbed = sum((x for x in exact if x > 0), start=0)
-        delivered = -sum((x for x in exact if x < 0), start=0)
-        imbalance = float(absorbed - delivered)
-        absorbed, delivered = float(absorbed), float(delivered)
+        total = sum(exact)
+        absorbed = sum(max(x, 0) for x in exact)
+        imbalance = float(total)
+        absorbed, delivered = float(absorbed), float(absorbed - total)
     else:
-        absorbed = float(p[p > 0].sum())
-        delivered = float(-p[p < 0].sum())
+        absorbed = float(np.maximum(p, 0).sum())
+        delivered = float(-np.minimum(p, 0).sum())
         imbalance = float(p.sum())
-    by_el = tuple(zip(net.names, (float(v) for v in p), strict=True)) if len(p) <= 5000 else ()
+    listed = len(p) <= LEDGER_LISTING_LIMIT
+    by_el = tuple(zip(net.names, (float(v) for v in p), strict=True)) if listed else ()
     return Ledger(absorbed, delivered, imbalance, by_el)

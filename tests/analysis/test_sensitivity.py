@@ -206,3 +206,66 @@ sensitivity = ["R2.voltage"]
     assert dict((n, v) for n, _, v in s.ranked) == pytest.approx(
         {"V1": 1.0, "R1": -1 / 3, "R2": 1 / 3}, rel=1e-9, abs=0
     )
+
+
+def test_unexcited_circuit_has_zero_outputs_and_no_sensitivity():
+    # With its only source at 0 V the linear circuit carries no voltage or current
+    # anywhere, and a 1 % change of any value (3 kΩ, 1 kΩ, or 0 V → 0 V) leaves it so
+    # (superposition; common practice, no source).  The outputs are zero against a
+    # zero scale: absolute measure, nothing listed, no NaN.
+    unexcited = [("V1", "voltage_source", ("in", "gnd"), "0 V"), *DIVIDER[1:]]
+    p = calcdoc.loads(
+        project_text(unexcited, extra='[analysis]\nsensitivity = ["out", "R1.current"]\n')
+    )
+    for s in items(p).values():
+        assert s.value == 0.0 and s.measure == "absolute"
+        assert s.ranked == () and s.absolute == ()
+
+
+def test_ranking_floor_is_relative_to_the_normalised_values():
+    # 10 mV across a 1 µΩ joint: I = V/R = 10 kA, so S(V1) = +1 and S(R1) = −1
+    # (I = V/R, closed form), while the raw derivative ∂I/∂R = −V/R² is −1e10 A/Ω.
+    # Both dependences are listed: the floor for rounding is a share of the largest
+    # *normalised* value, whatever the units of the raw derivatives.
+    shunt = [
+        ("V1", "voltage_source", ("a", "gnd"), "10 mV"),
+        ("R1", "resistor", ("a", "gnd"), "1 uohm"),
+    ]
+    p = calcdoc.loads(project_text(shunt, extra='[analysis]\nsensitivity = ["R1.current"]\n'))
+    s = items(p)["R1.current"]
+    assert s.value == pytest.approx(1e4, rel=1e-12, abs=0) and s.measure == "normalised"
+    assert dict((n, v) for n, _, v in s.ranked) == pytest.approx(
+        {"V1": 1.0, "R1": -1.0}, rel=1e-9, abs=0
+    )
+    assert dict(s.absolute)["R1"] == pytest.approx(-1e10, rel=1e-9, abs=0)
+
+
+def test_node_outputs_by_the_adjoint_above_the_closed_form_size(monkeypatch):
+    # With no closed form (the symbolic solution limited to 0 unknowns), V(out) of the
+    # divider is differentiated by the adjoint and gives the closed form's values:
+    # S(V1) = 1, S(R1) = −0.75, S(R2) = +0.75 (module docstring, common practice).
+    from calcdoc.mna import symbolic
+
+    monkeypatch.setattr(symbolic, "MAX_UNKNOWNS", 0)
+    p = calcdoc.loads(project_text(DIVIDER, extra='[analysis]\nsensitivity = ["out"]\n'))
+    out = items(p)["out"]
+    assert out.method == "adjoint" and out.value == pytest.approx(2.5, rel=1e-12, abs=0)
+    assert dict((n, v) for n, _, v in out.ranked) == pytest.approx(
+        {"V1": 1.0, "R1": -0.75, "R2": 0.75}, rel=1e-9, abs=0
+    )
+
+
+def test_power_of_a_current_source():
+    # 2 mA from gnd into a through the source, 1.5 kΩ from a to gnd: V(a) = 3 V, and
+    # the source's power v·i = (0 − 3 V)·2 mA = −6 mW (it delivers).  P = −J²·R, so
+    # S(I1) = 2 and S(R1) = 1 (closed form, Ohm's law).
+    src = [
+        ("I1", "current_source", ("gnd", "a"), "2 mA"),
+        ("R1", "resistor", ("a", "gnd"), "1.5 kohm"),
+    ]
+    p = calcdoc.loads(project_text(src, extra='[analysis]\nsensitivity = ["I1.power"]\n'))
+    s = items(p)["I1.power"]
+    assert s.value == pytest.approx(-0.006, rel=1e-12, abs=0) and s.method == "adjoint"
+    assert dict((n, v) for n, _, v in s.ranked) == pytest.approx(
+        {"I1": 2.0, "R1": 1.0}, rel=1e-9, abs=0
+    )

@@ -79,3 +79,51 @@ outputs = ["a", "D1.current"]
     assert searched == [False] * 6 + [True] + [False] * 4
     crossing = [c for c in sw.crossings if c.check == "D1.current"]
     assert not crossing  # 1 mA is never reached: (10 − 0.7)/6200 − 0.7 mA = 0.8 mA
+
+
+@pytest.mark.parametrize(("limit", "listed"), [(4, True), (3, False)])
+def test_pivots_per_value_set_listed_up_to_the_documented_limit(monkeypatch, limit, listed):
+    # The extreme method solves the 4 vertices of the two resistors' box; each set's
+    # state-search pivots are listed when there are at most LISTED_SETS sets
+    # (calcdoc.analysis.tolerance), totals only above.
+    from calcdoc.analysis import tolerance
+
+    monkeypatch.setattr(tolerance, "LISTED_SETS", limit)
+    tol = results('[analysis]\ntolerance = "extreme"\n').extra["tolerance"].per_case[0]
+    assert tol.state_changes == 1
+    assert len(tol.set_iterations) == (4 if listed else 0)
+
+
+def test_node_window_checks_name_the_states_of_their_own_extreme():
+    # V(a) is lowest with R1 high and R2 low, diode blocking: 5·950/(6510 + 950);
+    # highest where the diode conducts and clamps it at 0.7 V (closed forms above).
+    # Each bound's worst-case check names the device states of its own extreme.
+    res = results(
+        '[limits.nodes.a]\nmin = "0.6 V"\nmax = "0.75 V"\n[analysis]\ntolerance = "extreme"\n'
+    )
+    checks = {c.id: c for c in res.extra["tolerance"].per_case[0].checks}
+    low, high = checks["nodes.a.min"], checks["nodes.a.max"]
+    assert low.value == pytest.approx(5 * 950 / (6510 + 950), rel=1e-12)
+    assert "conducting" not in low.basis
+    assert high.value == pytest.approx(0.7, rel=1e-12)
+    assert high.basis.endswith("; there D1 conducting")
+
+
+def test_a_window_across_two_nodes_at_its_worst_extreme():
+    # V(in) − V(a) across R1: 5 V less V(a), so 5 − 0.7 = 4.3 V where the diode clamps
+    # (lowest) and 5 − 5·950/7460 V with R1 high, R2 low, diode blocking (highest);
+    # closed forms above.  The 4.35 V minimum is broken at the clamp, and the check
+    # names the state there.
+    res = results(
+        '[[limits.across]]\nname = "drop"\nnodes = ["in", "a"]\nmin = "4.35 V"\nmax = "4.5 V"\n'
+        '[analysis]\ntolerance = "extreme"\n'
+    )
+    tol = res.extra["tolerance"].per_case[0]
+    drop = tol.across["drop"]
+    assert drop.min == pytest.approx(4.3, rel=1e-12)
+    assert drop.max == pytest.approx(5 - 5 * 950 / 7460, rel=1e-12)
+    assert dict(drop.min_states) == {"D1": "conducting"} and drop.max_states == ()
+    check = {c.id: c for c in tol.checks}["across.drop"]
+    assert check.value == pytest.approx(4.3, rel=1e-12) and not check.passed
+    assert check.margin == pytest.approx(-0.05, rel=1e-9)
+    assert check.basis.endswith("; there D1 conducting")

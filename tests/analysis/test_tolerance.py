@@ -189,6 +189,42 @@ value = "1 kohm"
     assert o.min == pytest.approx(2.7 * vout(3030, 990), rel=1e-12, abs=0)
 
 
+def test_controlled_source_with_a_negative_determinant_is_proved():
+    # 1 mA into Ra (1 kΩ ± 5 %), a VCVS E1 = µ·V(a) (µ = 3 ± 10 %) into Ro: V(o) =
+    # µ·I·Ra (hand solution).  Unknowns V(a), V(o), I(E1): the source's row and column
+    # make the MNA determinant −1/Ra at every vertex (expanded by hand along I(E1)),
+    # one sign over the box, so the vertices are proved to hold the extremes.
+    t = result(
+        calcdoc.loads("""
+[elements.I1]
+type = "current_source"
+nodes = ["gnd", "a"]
+value = "1 mA"
+[elements.Ra]
+type = "resistor"
+nodes = ["a", "gnd"]
+value = "1 kohm"
+tolerance = "5 %"
+[elements.E1]
+type = "vcvs"
+nodes = ["o", "gnd"]
+gain = "3"
+control = ["a", "gnd"]
+tolerance = "10 %"
+[elements.Ro]
+type = "resistor"
+nodes = ["o", "gnd"]
+value = "1 kohm"
+[analysis]
+tolerance = "extreme"
+""")
+    )
+    o = t.nodes["o"]
+    assert o.how == "vertices, proved"
+    assert o.max == pytest.approx(3.3 * 1e-3 * 1050, rel=1e-12, abs=0)
+    assert o.min == pytest.approx(2.7 * 1e-3 * 950, rel=1e-12, abs=0)
+
+
 def test_vertices_picked_by_gradient_signs_above_the_limit(monkeypatch):
     # Three toleranced resistors, vertices picked by gradient signs (the limit
     # set to 2). By hand, every sign pattern of the 8 occurs among the outputs:
@@ -391,3 +427,83 @@ tolerance = "extreme"
     m = t.nodes["m"]  # V(m) = 1 kΩ·(1 − β)·1 mA: monotone, ±0.1 V at the vertices
     assert (m.min, m.max) == pytest.approx((-0.1, 0.1), rel=1e-12, abs=0)
     assert m.how == "vertices, proved"
+
+
+def test_histogram_skips_a_node_held_at_zero():
+    # Node a is held at 0 V by an ideal source in every sample, so it does not vary;
+    # b carries 1 mA into 1 kΩ ± 1 % and does (V(b) = 1 V ± 10 mV, Ohm's law).  The
+    # histogram is of the first node that varies: b.
+    t = result(
+        calcdoc.loads("""
+[elements.V0]
+type = "voltage_source"
+nodes = ["a", "gnd"]
+value = "0 V"
+[elements.I1]
+type = "current_source"
+nodes = ["a", "b"]
+value = "1 mA"
+[elements.R1]
+type = "resistor"
+nodes = ["b", "a"]
+value = "1 kohm"
+tolerance = "1 %"
+[analysis]
+tolerance = "montecarlo"
+samples = 50
+seed = 2
+""")
+    )
+    a = t.nodes["a"]
+    assert (a.min, a.max) == (0.0, 0.0)
+    b = t.nodes["b"]
+    assert 0.99 <= b.min < b.max <= 1.01
+    assert t.histogram is not None and t.histogram[0] == "V(b)"
+    assert sum(t.histogram[2]) == 50
+
+
+@pytest.mark.parametrize("method", ["extreme", "montecarlo", "rss"])
+def test_a_circuit_without_devices_reports_no_state_search(method):
+    # Resistors and sources only: no element has states, so no value set changes
+    # state, the state search makes no pivot and no set's pivots are listed.
+    t = result(divider(method=method, extra="samples = 20" if method == "montecarlo" else ""))
+    assert (t.state_changes, t.state_iterations, t.set_iterations) == (0, 0, ())
+    assert "another state" not in t.note
+
+
+def test_histogram_of_a_microvolt_node():
+    # 1 nA into 1 kΩ ± 1 %: V(a) = 1 µV ± 10 nV (Ohm's law).  A spread of a hundredth
+    # of the node's own value is variation, however small the volts: it gets the
+    # histogram.
+    t = result(
+        calcdoc.loads("""
+[elements.I1]
+type = "current_source"
+nodes = ["gnd", "a"]
+value = "1 nA"
+[elements.R1]
+type = "resistor"
+nodes = ["a", "gnd"]
+value = "1 kohm"
+tolerance = "1 %"
+[analysis]
+tolerance = "montecarlo"
+samples = 50
+seed = 2
+""")
+    )
+    a = t.nodes["a"]
+    assert 0.99e-6 <= a.min < a.max <= 1.01e-6
+    assert t.histogram is not None and t.histogram[0] == "V(a)"
+    assert sum(t.histogram[2]) == 50
+
+
+def test_a_toleranced_source_is_proved_at_the_vertices():
+    # 10 V ± 5 % into the 3 kΩ / 1 kΩ divider (± 1 %): V(out) = V·R2/(R1 + R2) is
+    # linear in V and monotone in each resistance (closed form), and V enters only
+    # the right-hand side, so the vertices are proved to hold the extremes.
+    text = divider().source.decode().replace('value = "10 V"', 'value = "10 V"\ntolerance = "5 %"')
+    out = result(calcdoc.loads(text)).nodes["out"]
+    assert out.how == "vertices, proved"
+    assert out.max == pytest.approx(vout(2970, 1010, 10.5), rel=1e-12, abs=0)
+    assert out.min == pytest.approx(vout(3030, 990, 9.5), rel=1e-12, abs=0)

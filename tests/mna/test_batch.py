@@ -85,6 +85,7 @@ def circuit():
     [
         "dense",
         "dense in chunks",
+        "dense with sparse placement maps",  # SMALL_MAP 0: the maps of large systems
         "sparse in chunks of three",
         "sparse in chunks of two",  # SuperLU takes contiguous rows only (fixed in batch.py)
     ],
@@ -93,6 +94,8 @@ def test_batches_of_value_sets_against_the_hand_solution(monkeypatch, circuit, p
     r, st, setter, parts = circuit
     if path == "dense in chunks":
         monkeypatch.setattr(batch, "BATCH_ENTRIES", 1)  # one value set per chunk
+    if path.endswith("maps"):
+        monkeypatch.setattr(batch, "SMALL_MAP", 0)
     if path.startswith("sparse"):
         monkeypatch.setattr(batch, "DENSE_UNKNOWNS", 0)
         monkeypatch.setattr(batch, "SPARSE_CHUNK", 3 if path.endswith("three") else 2)
@@ -134,7 +137,9 @@ def complex_step(parts, setter, p, k, h=1e-30):
     return ({n: x.imag / h for n, x in v.items()}, volt.imag / h, cur.imag / h, power.imag / h)
 
 
-def test_tangents_along_every_parameter(circuit):
+@pytest.mark.parametrize("small_map", [batch.SMALL_MAP, 0])  # dense or sparse jacobian map
+def test_tangents_along_every_parameter(monkeypatch, circuit, small_map):
+    monkeypatch.setattr(batch, "SMALL_MAP", small_map)
     r, st, setter, parts = circuit
     p = st.p_float
     x = r.solution.x

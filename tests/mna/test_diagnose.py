@@ -261,3 +261,26 @@ def test_parallel_sources_behind_a_resistor_with_its_own_current():
         ]
     )
     assert e.condition == "voltage loop" and e.culprits == ("V1", "V2")
+
+
+def test_plain_python_components_up_to_the_small_size(monkeypatch):
+    # SMALL: "up to this, plain Python graph code (scipy takes ~0.3 s to import)"; the
+    # comparison is inclusive.  A floating island is found either way.
+    import scipy.sparse.csgraph as csgraph
+
+    from calcdoc.mna import diagnose
+
+    def scipy_components(*args, **kw):
+        raise AssertionError("scipy's connected components used")
+
+    monkeypatch.setattr(csgraph, "connected_components", scipy_components)
+    island = [
+        ("V1", "voltage_source", ("a", "gnd"), "1 V"),
+        ("R1", "resistor", ("a", "gnd"), "1 kohm"),
+        ("R2", "resistor", ("b", "c"), "1 kohm"),
+    ]
+    monkeypatch.setattr(diagnose, "SMALL", 3)  # 3 elements: plain Python
+    assert fault(island).detail == "no path to the reference node 'gnd' from: b, c"
+    monkeypatch.setattr(diagnose, "SMALL", 2)
+    with pytest.raises(AssertionError, match="scipy's connected components used"):
+        calcdoc.solve(calcdoc.loads(project_text(island)))

@@ -281,3 +281,18 @@ def test_ill_conditioned_system_is_solved_exactly_or_refined(make_project, monke
     assert f.solution.method == "dense LU"
     assert float(f.branches.node_voltage[1]) == pytest.approx(float(exact), rel=1e-15)
     assert f.solution.error_estimate < 1e-14 and f.solution.warnings == ()
+
+
+def test_a_netlist_with_nothing_to_solve():
+    # Built through the Python API (a project file refuses an element with both
+    # terminals on one node): the reference is the only node and the resistor carries
+    # no current unknown, so there are no unknowns.  Nothing to solve means no residual,
+    # no error, no refinement step, and the condition of the empty system is 1, the
+    # least a condition number can be (common practice, no source).
+    from calcdoc.results import Netlist
+
+    net = Netlist(("gnd",), ("R1",), ("resistor",), np.array([0]), np.array([0]), (1000.5,), {}, {})
+    s = solve_mod.solve(net)
+    assert s.method == "dense LU" and s.x.shape == (0,)
+    assert (s.residual, s.condition, s.error_estimate, s.refinement_steps) == (0.0, 1.0, 0.0, 0)
+    assert s.warnings == ()

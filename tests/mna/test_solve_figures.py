@@ -292,3 +292,30 @@ def test_column_equilibration_of_a_high_gain_stage(monkeypatch, path):
     else:
         assert want / 3 <= r.solution.condition <= want * (1 + 1e-12)
     assert r.solution.x.tolist() == pytest.approx([1.0, 1e6, 0.0, -1e3], rel=1e-15, abs=0)
+
+
+@pytest.mark.parametrize("path", ["dense", "sparse"])
+def test_one_unknown_on_the_float_paths(monkeypatch, path):
+    # 2 mA into node a through 1.5 kΩ: V(a) = I·R = 3 V, the only unknown (Ohm's law).
+    limits = {"EXACT_LIMIT": 0} | ({"DENSE_LIMIT": 0} if path == "sparse" else {})
+    r = case(
+        [
+            ("I1", "current_source", ("gnd", "a"), "2 mA"),
+            ("R1", "resistor", ("a", "gnd"), "1.5 kohm"),
+        ],
+        monkeypatch,
+        **limits,
+    )
+    assert r.solution.method == f"{path} LU"
+    assert r.solution.x.tolist() == [pytest.approx(3.0, rel=1e-15, abs=0)]
+    assert r.solution.residual < 1e-15 and r.solution.warnings == ()
+
+
+@pytest.mark.parametrize("path", ["dense", "sparse"])
+def test_unexcited_circuit_solves_to_zero_with_zero_residual(monkeypatch, path):
+    # A 0 V source drives nothing: x = 0 exactly, so A·x − z = 0 and the relative
+    # residual ‖A·x − z‖/(‖A‖·‖x‖ + ‖z‖) is 0/0, reported as 0 (no error at all).
+    limits = {"EXACT_LIMIT": 0} | ({"DENSE_LIMIT": 0} if path == "sparse" else {})
+    r = case([("V1", "voltage_source", ("a", "gnd"), "0 V"), *DIVIDER[1:]], monkeypatch, **limits)
+    assert r.solution.x.tolist() == [0.0, 0.0, 0.0]
+    assert r.solution.residual == 0.0 and r.solution.error_estimate == 0.0

@@ -173,3 +173,17 @@ def test_plain_python_tree_up_to_the_small_size(monkeypatch):
     monkeypatch.setattr(balance, "SMALL", len(r.netlist.names) - 1)
     with pytest.raises(AssertionError, match="scipy's breadth-first order used"):
         balance.kvl_loops(r.netlist, r.branches)
+
+
+def test_ledger_lists_each_element_up_to_the_documented_limit(monkeypatch):
+    # LEDGER_LISTING_LIMIT (calcdoc.verify.balance): "above it the ledger gives totals
+    # only"; the limit is inclusive.  The divider has 3 elements; totals as above.
+    r = case(DIVIDER)
+    monkeypatch.setattr(balance, "LEDGER_LISTING_LIMIT", 3)
+    listed = balance.power_ledger(r.netlist, r.branches)
+    assert [name for name, _ in listed.by_element] == ["V1", "R1", "R2"]
+    monkeypatch.setattr(balance, "LEDGER_LISTING_LIMIT", 2)
+    totals = balance.power_ledger(r.netlist, r.branches)
+    assert totals.by_element == ()
+    assert totals.absorbed == pytest.approx(0.025, rel=1e-15, abs=0)
+    assert totals.delivered == pytest.approx(0.025, rel=1e-15, abs=0)
