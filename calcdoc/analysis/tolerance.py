@@ -373,7 +373,7 @@ def _extremes(runs: _Runs, var: Variation, keys, lo, hi, nominal_row):
         )
     result = {}
     grads_at: dict[tuple, np.ndarray] = {}
-    searched = 0
+    searched = improved = 0
     for o, key in enumerate(keys):
         col = Y[:, o]
         out = {}
@@ -395,13 +395,17 @@ def _extremes(runs: _Runs, var: Variation, keys, lo, hi, nominal_row):
                     searched += 1
                     val, pt = _local_search(runs, var, keys, o, at, sign, lo, hi)
                     if sign * (val - best) > SEARCH_GAIN * abs(best):
+                        improved += 1
                         best, at = val, pt
                         where = "inside" if np.any((pt > lo) & (pt < hi)) else "vertex"
                         changes = runs.changes_at(var.params(st, pt[None])[0])
             out[which] = (best, tuple(float(d) for d in at), where, proved, changes)
         result[key] = out
     if searched:
-        note += f"; {searched} extremes improved by a bounded local search from the best vertex"
+        note += (
+            f"; {searched} {'extreme' if searched == 1 else 'extremes'} searched further by a "
+            f"bounded local search from the best vertex, {improved} improved by it"
+        )
     return result, note, len(delta), proved_kind
 
 

@@ -104,8 +104,8 @@ def test_power_peak_inside_the_box_from_either_vertex(load, peak_from):
     # only this one extreme needed the local search (every other output is
     # monotone in RL, or proved at a vertex)
     assert t.note == (
-        "all 2 vertices of the tolerance box solved; 1 extremes improved by a bounded local "
-        "search from the best vertex"
+        "all 2 vertices of the tolerance box solved; 1 extreme searched further by a bounded "
+        "local search from the best vertex, 1 improved by it"
     )
     chk = {c.id: c for c in t.checks}["R.L.power"]  # limit 0.04998 W × 50 % = 24.99 mW
     assert chk.value == pytest.approx(0.025, rel=1e-10, abs=0) and not chk.passed
