@@ -296,3 +296,29 @@ def test_a_netlist_with_nothing_to_solve():
     assert s.method == "dense LU" and s.x.shape == (0,)
     assert (s.residual, s.condition, s.error_estimate, s.refinement_steps) == (0.0, 1.0, 0.0, 0)
     assert s.warnings == ()
+
+
+def _ladder(nodes: int) -> str:
+    """A 1 V source on n1 and a resistor ladder n1 … n<nodes>, each node also to gnd."""
+    out = ['[elements.V1]\ntype = "voltage_source"\nnodes = ["n1", "gnd"]\nvalue = "1 V"\n']
+    for i in range(1, nodes + 1):
+        out.append(f'[elements.G{i}]\ntype = "resistor"\nnodes = ["n{i}", "gnd"]\nvalue = "2k"\n')
+        if i < nodes:
+            out.append(
+                f'[elements.S{i}]\ntype = "resistor"\nnodes = ["n{i}", "n{i + 1}"]\nvalue = "1k"\n'
+            )
+    return "".join(out)
+
+
+@pytest.mark.parametrize(
+    ("unknowns", "method"),
+    [(40, "exact rational"), (41, "dense LU"), (400, "dense LU"), (401, "sparse LU")],
+)
+def test_the_method_limits_the_readme_states(unknowns, method):
+    # README, "How it solves": exact up to 40 unknowns, dense LU up to 400, sparse above.
+    # The ladder has one unknown per node besides gnd and one for the source current.
+    case = calcdoc.solve(calcdoc.loads(_ladder(unknowns - 1))).cases[0]
+    assert case.solution.method == method
+    assert len(case.solution.x) == unknowns
+    # the first node is held at the source voltage whatever the method (by hand: V1 = 1 V)
+    assert case.branches.node_voltage[1] == pytest.approx(1.0, rel=1e-12)
