@@ -18,7 +18,7 @@ import numpy as np
 from calcdoc.model.expressions import Binary, Call, Literal, Name, Node, Unary, names_in
 from calcdoc.model.project import Case, Project
 from calcdoc.model.quantities import Number
-from calcdoc.model.values import element_values, parameter_values
+from calcdoc.model.values import affected_parameters, element_values, parameter_values
 
 EXACT_VERTEX_LIMIT = 12  # toleranced quantities for which every vertex is solved (2**12 = 4096)
 
@@ -128,14 +128,7 @@ class Variation:
                 if name in scale:
                     v = v * scale[name]
                 env[name] = v
-            touched = set(scale)
-            changed = True
-            while changed:  # parameters that depend on toleranced ones
-                changed = False
-                for q in p.parameters:
-                    if q.name not in touched and names_in(q.expr) & touched:
-                        touched.add(q.name)
-                        changed = True
+            touched = affected_parameters(p, scale)
             case_set = {s.target for s in (self.case.settings if self.case else ())}
             for j, e in enumerate(p.elements):
                 if e.name not in case_set and names_in(e.value_expr) & touched:

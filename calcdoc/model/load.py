@@ -51,6 +51,7 @@ from calcdoc.model.read_sections import (
     read_signoff,
     read_sweeps,
 )
+from calcdoc.model.values import affected_parameters
 
 try:  # tomli's compiled wheels parse about 2x faster than the standard library's tomllib
     import tomli as tomllib
@@ -347,19 +348,14 @@ def _fixed_further_keys(project: Project) -> list[str]:
         for q in project.parameters:
             if q.tolerance is not None:
                 why.setdefault(q.name, set()).add("the tolerance analysis")
-    changed = True
-    while changed:  # parameters defined from changed ones change too
-        changed = False
-        for q in project.parameters:
-            if q.name not in why and (hit := names_in(q.expr) & why.keys()):
-                why[q.name] = set().union(*(why[h] for h in hit))
-                changed = True
+    reach = {name: affected_parameters(project, {name}) for name in why}
     out = []
     for e in project.elements:
         for k in e.more:
-            hit = sorted(names_in(k.expr) & why.keys())
+            used = names_in(k.expr)
+            hit = sorted(used & set().union(*reach.values())) if reach else []
             if hit:
-                by = sorted(set().union(*(why[h] for h in hit)))
+                by = sorted(set().union(*(why[c] for c, r in reach.items() if used & r)))
                 out.append(
                     f"elements.{e.name}.{k.key}: uses parameter {', '.join(map(repr, hit))}, "
                     f"which {', '.join(by)} changes; only main values follow a parameter, "

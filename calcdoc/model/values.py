@@ -7,7 +7,7 @@ re-evaluates what is needed; it is pure and cheap for the nominal case.
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 
 from calcdoc.model.expressions import ExpressionError, evaluate, names_in
 from calcdoc.model.project import Case, Project
@@ -125,3 +125,36 @@ def element_values(
             values[e.name] = evaluate(e.value_expr, env).magnitude if deps else e.value
     values.update(eoverride)
     return values
+
+
+def affected_parameters(project: Project, changed: Iterable[str]) -> set[str]:
+    """``changed`` and every parameter whose expression reaches one of them.
+
+    >>> from calcdoc.model.load import parse_project
+    >>> p = parse_project('''
+    ... [parameters]
+    ... a = "1"
+    ... b = "2 * a"
+    ... c = "b + 1"
+    ... d = "5"
+    ... [elements.V1]
+    ... type = "voltage_source"
+    ... nodes = ["x", "gnd"]
+    ... value = "1 V"
+    ... [elements.R1]
+    ... type = "resistor"
+    ... nodes = ["x", "gnd"]
+    ... value = "1k"
+    ... ''')
+    >>> sorted(affected_parameters(p, {"a"}))
+    ['a', 'b', 'c']
+    """
+    touched = set(changed)
+    grew = True
+    while grew:  # parameters may be listed before the ones they use
+        grew = False
+        for q in project.parameters:
+            if q.name not in touched and names_in(q.expr) & touched:
+                touched.add(q.name)
+                grew = True
+    return touched

@@ -289,8 +289,8 @@ def _char_box(ch: str, upright: bool, size: float, y_scale: float = 1.0) -> Box:
     lo, hi = face.bounds(name)
     return Box(
         face.advance(name) * size,
-        max(hi * size, 0.0),
-        max(-lo * size, 0.0),
+        max(hi * size * y_scale, 0.0),
+        max(-lo * size * y_scale, 0.0),
         [(face, name, 0.0, 0.0, size, y_scale)],
     )
 
@@ -399,18 +399,9 @@ def _fenced(item: Fenced, size: float) -> Box:
         natural = _char_box(ch, True, size)
         lo, hi = -natural.depth, natural.height
         scale = max(1.0, 2 * half / (hi - lo)) if hi > lo else 1.0
-        shift = axis - (lo + hi) / 2 * scale
-        glyph = _char_box(ch, True, size, scale)
-        glyph.height, glyph.depth = hi * scale + shift, -(lo * scale + shift)
-        box.place(_shifted(glyph, shift), box.width, 0.0)
+        shift = axis - (lo + hi) / 2 * scale  # centred on the axis
+        box.place(_char_box(ch, True, size, scale), box.width, shift)
     return box
-
-
-def _shifted(box: Box, dy: float) -> Box:
-    out = Box(box.width, box.height, box.depth)
-    out.marks = [(f, g, x, y + dy, s, sy) for f, g, x, y, s, sy in box.marks]
-    out.rules = list(box.rules)
-    return out
 
 
 def read(tex: str) -> Group:
